@@ -1,0 +1,56 @@
+import type { FastifyPluginAsync } from 'fastify';
+import type { ZodTypeProvider } from 'fastify-type-provider-zod';
+import { z } from 'zod';
+import { BOARD_READ, requireActor, SUPERVISOR_UP } from '../auth/access.js';
+import { actorName } from '../auth/service.js';
+import type { HeftContext } from '../context.js';
+import { notFound } from '../errors.js';
+import { alertView } from '../monitor/views.js';
+import { freeText, idParam, isoTime } from '../shared/schemas.js';
+
+const alertParams = z.strictObject({ id: idParam });
+
+export const alertsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fastify, { ctx }) => {
+  const app = fastify.withTypeProvider<ZodTypeProvider>();
+  const { repos, monitor } = ctx;
+
+  app.get(
+    '/api/alerts',
+    {
+      config: { roles: BOARD_READ },
+      schema: {
+        querystring: z.strictObject({
+          state: z.enum(['open', 'acknowledged', 'resolved']).optional(),
+          lineId: idParam.optional(),
+          from: isoTime.optional(),
+          to: isoTime.optional(),
+          limit: z.coerce.number().int().min(1).max(5000).default(500),
+        }),
+      },
+    },
+    async (req) => ({
+      alerts: repos.alerts.list(req.query).map((a) => alertView(a, repos.alerts.signalsOf(a.id))),
+    }),
+  );
+
+  app.get('/api/alerts/:id', { config: { roles: BOARD_READ }, schema: { params: alertParams } }, async (req) => {
+    const alert = repos.alerts.get(req.params.id);
+    if (!alert) throw notFound(`alert ${req.params.id}`);
+    return { alert: alertView(alert, repos.alerts.signalsOf(alert.id)) };
+  });
+
+  app.post(
+    '/api/alerts/:id/acknowledge',
+    { config: { roles: SUPERVISOR_UP }, schema: { params: alertParams, body: z.strictObject({ note: freeText(1000) }) } },
+    async (req) => ({ alert: monitor.acknowledge(req.params.id, req.body.note, actorName(requireActor(req))) }),
+  );
+
+  app.post(
+    '/api/alerts/:id/resolve',
+    {
+      config: { roles: SUPERVISOR_UP },
+      schema: { params: alertParams, body: z.strictObject({ cause: freeText(1000), action: freeText(1000) }) },
+    },
+    async (req) => ({ alert: monitor.resolve(req.params.id, req.body.cause, req.body.action, actorName(requireActor(req))) }),
+  );
+};

@@ -1,0 +1,133 @@
+import cookie from '@fastify/cookie';
+import helmet from '@fastify/helmet';
+import rateLimit from '@fastify/rate-limit';
+import Fastify, { type FastifyInstance, type FastifyServerOptions } from 'fastify';
+import { serializerCompiler, validatorCompiler } from 'fastify-type-provider-zod';
+import { installAccess } from './auth/access.js';
+import { authPlugin } from './auth/routes.js';
+import { createAuthRepository } from './auth/repository.js';
+import { createAuthService } from './auth/service.js';
+import { alertsPlugin } from './alerts/routes.js';
+import { createAlertRepository } from './alerts/repository.js';
+import { auditPlugin } from './audit/routes.js';
+import { createAuditRepository } from './audit/repository.js';
+import { checksPlugin } from './checks/routes.js';
+import { createCheckRepository } from './checks/repository.js';
+import type { Clock } from './clock.js';
+import type { Config } from './config.js';
+import type { HeftContext } from './context.js';
+import type { Db } from './db/database.js';
+import { installErrorHandler } from './error-handler.js';
+import { healthPlugin } from './health/routes.js';
+import { limitsPlugin } from './limits/routes.js';
+import { createLimitsRepository } from './limits/repository.js';
+import { linesPlugin } from './lines/routes.js';
+import { createLineRepository } from './lines/repository.js';
+import { Monitor, type LiveEvent } from './monitor/monitor.js';
+import { createMonitorStateRepository } from './monitor/state-repository.js';
+import { productsPlugin } from './products/routes.js';
+import { createProductRepository } from './products/repository.js';
+
+export interface AppOptions {
+  db: Db;
+  clock: Clock;
+  config: Config;
+  logger?: FastifyServerOptions['logger'];
+  /** Where committed live messages go; the live hub plugs in here. */
+  onLive?: (events: LiveEvent[]) => void;
+  /** Sweep for overdue checks on a timer (off in tests, which call monitor.sweepOverdue() by hand). */
+  overdueTimer?: boolean;
+}
+
+declare module 'fastify' {
+  interface FastifyInstance {
+    heft: HeftContext;
+  }
+}
+
+/** Builds the whole app on a migrated database; never listens. */
+export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
+  const { db, clock, config } = options;
+  const app = Fastify({
+    logger: options.logger ?? false,
+    bodyLimit: 256 * 1024,
+    routerOptions: { maxParamLength: 200 },
+  });
+  app.setValidatorCompiler(validatorCompiler);
+  app.setSerializerCompiler(serializerCompiler);
+  installErrorHandler(app);
+
+  const listeners: ((events: LiveEvent[]) => void)[] = [];
+  if (options.onLive) listeners.push(options.onLive);
+  const repos = {
+    lines: createLineRepository(db),
+    products: createProductRepository(db),
+    checks: createCheckRepository(db),
+    alerts: createAlertRepository(db),
+    limits: createLimitsRepository(db),
+    monitorState: createMonitorStateRepository(db),
+    audit: createAuditRepository(db),
+    auth: createAuthRepository(db),
+  };
+  const monitor = new Monitor({
+    db,
+    clock,
+    repos,
+    overdueGraceMinutes: config.overdueGraceMinutes,
+    publish: (events) => {
+      for (const listen of listeners) {
+        try {
+          listen(events);
+        } catch (err) {
+          app.log.error({ err }, 'a live listener failed');
+        }
+      }
+    },
+  });
+  const auth = createAuthService({
+    db,
+    clock,
+    repo: repos.auth,
+    audit: repos.audit,
+    sessionIdleMs: config.sessionIdleMinutes * 60_000,
+    sessionMaxMs: config.sessionMaxHours * 3_600_000,
+  });
+  const ctx: HeftContext = { db, clock, config, repos, monitor, auth };
+  app.decorate('heft', ctx);
+
+  await app.register(helmet, {
+    contentSecurityPolicy: {
+      useDefaults: true,
+      directives: {
+        'upgrade-insecure-requests': config.secureCookies ? [] : null,
+        'connect-src': ["'self'", 'ws:', 'wss:'],
+      },
+    },
+    hsts: config.secureCookies,
+  });
+  await app.register(cookie);
+  await app.register(rateLimit, { global: false });
+  installAccess(app, auth);
+
+  await app.register(healthPlugin);
+  await app.register(authPlugin, { ctx });
+  await app.register(linesPlugin, { ctx });
+  await app.register(productsPlugin, { ctx });
+  await app.register(checksPlugin, { ctx });
+  await app.register(alertsPlugin, { ctx });
+  await app.register(limitsPlugin, { ctx });
+  await app.register(auditPlugin, { ctx });
+
+  if (options.overdueTimer) {
+    const timer = setInterval(() => {
+      try {
+        monitor.sweepOverdue();
+      } catch (err) {
+        app.log.error({ err }, 'overdue sweep failed');
+      }
+    }, 15_000);
+    timer.unref();
+    app.addHook('onClose', async () => clearInterval(timer));
+  }
+  return app;
+}

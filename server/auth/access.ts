@@ -1,0 +1,94 @@
+import type {} from '@fastify/cookie';
+import type { FastifyInstance, FastifyReply, FastifyRequest } from 'fastify';
+import { ROLES, type Role } from './secrets.js';
+import type { Actor, AuthService } from './service.js';
+import { DomainError, forbidden, unauthorized } from '../errors.js';
+
+/**
+ * Who may call a route, declared on every route as `config: { roles: [...] }`:
+ * 'anyone', any of the four roles, 'board-token' (a wall screen's read-only token) and
+ * 'checks-token' (a scale's token, only for the lines it names).
+ */
+export type Access = 'anyone' | Role | 'board-token' | 'checks-token';
+
+export const SIGNED_IN: Access[] = [...ROLES];
+export const SUPERVISOR_UP: Access[] = ['supervisor', 'quality', 'admin'];
+export const QUALITY_UP: Access[] = ['quality', 'admin'];
+export const ADMIN: Access[] = ['admin'];
+export const BOARD_READ: Access[] = [...ROLES, 'board-token'];
+
+declare module 'fastify' {
+  interface FastifyContextConfig {
+    roles?: Access[];
+  }
+  interface FastifyRequest {
+    actor: Actor | null;
+  }
+}
+
+export const SESSION_COOKIE = 'heft_session';
+
+const SAFE_METHODS = new Set(['GET', 'HEAD', 'OPTIONS']);
+
+/** A state change riding on the session cookie must come from our own pages, not another site. */
+function crossOrigin(request: FastifyRequest): boolean {
+  const origin = request.headers.origin;
+  if (typeof origin === 'string' && origin !== 'null') {
+    try {
+      return new URL(origin).host !== request.headers.host;
+    } catch {
+      return true;
+    }
+  }
+  if (origin === 'null') return true;
+  return request.headers['sec-fetch-site'] === 'cross-site';
+}
+
+/** Installs the one access hook. A route that declares no roles makes the app refuse to start. */
+export function installAccess(app: FastifyInstance, auth: AuthService): void {
+  app.decorateRequest('actor', null);
+  app.addHook('onRoute', (route) => {
+    const roles = route.config?.roles;
+    if (!Array.isArray(roles) || roles.length === 0) {
+      throw new Error(`route ${String(route.method)} ${route.url} declares no roles (config.roles)`);
+    }
+  });
+  app.addHook('onRequest', async (request: FastifyRequest, _reply: FastifyReply) => {
+    const roles = request.routeOptions.config?.roles;
+    if (!roles) return; // not-found handler
+    const header = request.headers.authorization;
+    let viaCookie = false;
+    if (typeof header === 'string' && header.startsWith('Bearer ')) {
+      request.actor = auth.tokenActor(header.slice(7).trim());
+      if (!request.actor && !roles.includes('anyone')) throw unauthorized('that bearer token is not valid or was revoked');
+    } else {
+      const sessionId = request.cookies?.[SESSION_COOKIE];
+      if (sessionId) {
+        request.actor = auth.sessionActor(sessionId);
+        viaCookie = request.actor !== null;
+      }
+    }
+    if (viaCookie && !SAFE_METHODS.has(request.method) && crossOrigin(request)) {
+      throw new DomainError(403, 'cross-origin', 'a change from another site was refused');
+    }
+    if (roles.includes('anyone')) return;
+    const actor = request.actor;
+    if (!actor) throw unauthorized();
+    if (actor.kind === 'user') {
+      if (!roles.includes(actor.role)) throw forbidden(`a ${actor.role} may not do this`);
+      return;
+    }
+    if (actor.tokenKind === 'board' && roles.includes('board-token')) return;
+    if (actor.tokenKind === 'checks' && roles.includes('checks-token')) {
+      const lineId = Number((request.params as Record<string, string> | undefined)?.lineId);
+      if (actor.lineIds.includes(lineId)) return;
+      throw forbidden(`this token may post checks only for lines ${actor.lineIds.join(', ') || '(none)'}`);
+    }
+    throw forbidden('this token may not do this');
+  });
+}
+
+export function requireActor(request: FastifyRequest): Actor {
+  if (!request.actor) throw unauthorized();
+  return request.actor;
+}

@@ -1,0 +1,23 @@
+import Database from 'better-sqlite3';
+import { mkdirSync } from 'node:fs';
+import { dirname } from 'node:path';
+
+export type Db = Database.Database;
+
+export interface OpenOptions {
+  busyTimeoutMs?: number;
+}
+
+/**
+ * Opens the SQLite file with the pragmas Heft relies on: WAL for readers beside the writer,
+ * synchronous=FULL so that an acknowledged check survives a power cut, foreign keys enforced.
+ */
+export function openDatabase(file: string, options: OpenOptions = {}): Db {
+  if (file !== ':memory:') mkdirSync(dirname(file), { recursive: true });
+  const db = new Database(file);
+  db.pragma('journal_mode = WAL');
+  db.pragma('synchronous = FULL');
+  db.pragma('foreign_keys = ON');
+  db.pragma(`busy_timeout = ${Math.max(0, Math.floor(options.busyTimeoutMs ?? 5000))}`);
+  return db;
+}

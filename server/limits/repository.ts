@@ -1,0 +1,77 @@
+import type { Db } from '../db/database.js';
+
+export interface LimitsVersion {
+  id: number;
+  lineId: number;
+  productId: number;
+  centre: number;
+  sigma: number;
+  method: string;
+  baselineFrom: number | null;
+  baselineTo: number | null;
+  baselineChecks: number | null;
+  approvedBy: string;
+  approvedAt: number;
+  note: string | null;
+}
+
+interface Row {
+  id: number;
+  line_id: number;
+  product_id: number;
+  centre: number;
+  sigma: number;
+  method: string;
+  baseline_from: number | null;
+  baseline_to: number | null;
+  baseline_checks: number | null;
+  approved_by: string;
+  approved_at: number;
+  note: string | null;
+}
+
+const toVersion = (r: Row): LimitsVersion => ({
+  id: r.id,
+  lineId: r.line_id,
+  productId: r.product_id,
+  centre: r.centre,
+  sigma: r.sigma,
+  method: r.method,
+  baselineFrom: r.baseline_from,
+  baselineTo: r.baseline_to,
+  baselineChecks: r.baseline_checks,
+  approvedBy: r.approved_by,
+  approvedAt: r.approved_at,
+  note: r.note,
+});
+
+export function createLimitsRepository(db: Db) {
+  const latest = db.prepare('SELECT * FROM limit_versions WHERE line_id = ? AND product_id = ? ORDER BY id DESC LIMIT 1');
+  const history = db.prepare('SELECT * FROM limit_versions WHERE line_id = ? ORDER BY id');
+  const byId = db.prepare('SELECT * FROM limit_versions WHERE id = ?');
+  const insert = db.prepare(
+    `INSERT INTO limit_versions (line_id, product_id, centre, sigma, method, baseline_from, baseline_to, baseline_checks,
+       approved_by, approved_at, note)
+     VALUES (@lineId, @productId, @centre, @sigma, @method, @baselineFrom, @baselineTo, @baselineChecks, @approvedBy,
+       @approvedAt, @note)`,
+  );
+  return {
+    latest(lineId: number, productId: number): LimitsVersion | null {
+      const row = latest.get(lineId, productId) as Row | undefined;
+      return row ? toVersion(row) : null;
+    },
+    get(id: number): LimitsVersion | null {
+      const row = byId.get(id) as Row | undefined;
+      return row ? toVersion(row) : null;
+    },
+    history(lineId: number): LimitsVersion[] {
+      return (history.all(lineId) as Row[]).map(toVersion);
+    },
+    insert(v: Omit<LimitsVersion, 'id'>): LimitsVersion {
+      const id = Number(insert.run(v).lastInsertRowid);
+      return { ...v, id };
+    },
+  };
+}
+
+export type LimitsRepository = ReturnType<typeof createLimitsRepository>;

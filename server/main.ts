@@ -1,0 +1,91 @@
+import { existsSync, rmSync } from 'node:fs';
+import { generateDemo } from '../demo-data/generate.js';
+import { DEMO_USERS, PLANT } from '../demo-data/scenario.js';
+import { startSimulator } from '../demo-data/simulator.js';
+import { buildApp } from './app.js';
+import { systemClock } from './clock.js';
+import { ConfigError, helpText, parseConfig, type Config } from './config.js';
+import { openDatabase } from './db/database.js';
+import { migrate } from './db/migrate.js';
+import type { LiveEvent } from './monitor/monitor.js';
+
+async function prepareDemo(config: Config): Promise<void> {
+  if (config.reset) {
+    for (const suffix of ['', '-wal', '-shm']) rmSync(`${config.db}${suffix}`, { force: true });
+  }
+  if (existsSync(config.db)) return;
+  const db = openDatabase(config.db, { busyTimeoutMs: config.busyTimeoutMs });
+  migrate(db);
+  const started = Date.now();
+  process.stdout.write(`Making the demo database ${config.db} (${PLANT.name}, two weeks of hourly checks)…\n`);
+  const summary = await generateDemo({ db, config, endAt: Date.now() });
+  db.close();
+  process.stdout.write(`  ${summary.checks} checks and ${summary.alerts} alerts in ${((Date.now() - started) / 1000).toFixed(1)} s\n`);
+}
+
+async function main(): Promise<void> {
+  const argv = process.argv.slice(2);
+  if (argv.includes('--help') || argv.includes('-h')) {
+    process.stdout.write(helpText(argv.includes('--demo') ? 'npm run demo --' : 'npm start --'));
+    return;
+  }
+  let config: Config;
+  try {
+    const demo = argv.includes('--demo') || process.env.HEFT_DEMO === '1';
+    const explicitDb = argv.some((a) => a === '--db' || a.startsWith('--db=')) || process.env.HEFT_DB !== undefined;
+    config = parseConfig(argv, process.env, demo && !explicitDb ? { db: './data/demo.db' } : {});
+  } catch (err) {
+    if (err instanceof ConfigError) {
+      process.stderr.write(`${err.message}\n`);
+      process.exit(2);
+    }
+    throw err;
+  }
+  if (config.demo) await prepareDemo(config);
+
+  const db = openDatabase(config.db, { busyTimeoutMs: config.busyTimeoutMs });
+  migrate(db);
+  const live: ((events: LiveEvent[]) => void)[] = [];
+  const app = await buildApp({
+    db,
+    clock: systemClock,
+    config,
+    logger: { level: config.logLevel },
+    overdueTimer: true,
+    onLive: (events) => live.forEach((l) => l(events)),
+  });
+
+  let stopSimulator = () => {};
+  if (config.demo && config.simulator) {
+    const { token } = app.heft.auth.createToken({ name: `demo simulator ${new Date().toISOString()}`, kind: 'checks', lineIds: app.heft.repos.lines.list().map((l) => l.id) }, 'demo-setup');
+    const sim = startSimulator({ app, token });
+    live.push(sim.onLive);
+    stopSimulator = sim.stop;
+  }
+
+  const shutdown = async (signal: string) => {
+    app.log.info({ signal }, 'shutting down');
+    stopSimulator();
+    await app.close();
+    db.close();
+    process.exit(0);
+  };
+  process.once('SIGTERM', () => void shutdown('SIGTERM'));
+  process.once('SIGINT', () => void shutdown('SIGINT'));
+
+  await app.listen({ port: config.port, host: config.host });
+  const url = `http://${config.host.includes(':') ? `[${config.host}]` : config.host}:${config.port}`;
+  if (config.demo) {
+    process.stdout.write(
+      `\nHeft demo at ${url}  (database ${config.db})\nDemo users (demo mode only):\n${DEMO_USERS.map((u) => `  ${u.role.padEnd(10)} ${u.username} / ${u.secret}`).join('\n')}\n` +
+        `${config.simulator ? 'A simulated operator keys in a check on each line every ~20 s.\n' : ''}\n`,
+    );
+  } else {
+    process.stdout.write(`Heft at ${url}  (database ${config.db})\n`);
+  }
+}
+
+main().catch((err) => {
+  process.stderr.write(`Heft could not start: ${err instanceof Error ? err.message : String(err)}\n`);
+  process.exit(1);
+});

@@ -1,0 +1,733 @@
+import type { AlertKind, AlertRepository, ShiftSize, StoredAlert, StoredSignal } from '../alerts/repository.js';
+import type { AuditRepository } from '../audit/repository.js';
+import type { CheckRepository, NewCheck, StoredCheck } from '../checks/repository.js';
+import type { Clock } from '../clock.js';
+import type { Db } from '../db/database.js';
+import { conflict, DomainError, notFound } from '../errors.js';
+import type { Line, LineRepository, Run } from '../lines/repository.js';
+import type { LimitsRepository } from '../limits/repository.js';
+import type { Basis, Product, ProductRepository } from '../products/repository.js';
+import { stepChangePoint } from '../stats/change-point.js';
+import { meanChartLimits, spreadChartLimits, standardisedMean, type ProcessModel } from '../stats/control-limits.js';
+import { freshSegment, judgePoint, type RawSignal, type SegmentState } from '../stats/judge.js';
+import { resolveRuleSet, type RuleSet } from '../stats/rule-set.js';
+import type { Direction, RuleId, Severity } from '../stats/rules.js';
+import { summarizeSample } from '../stats/sample-summary.js';
+import type { MonitorStateRepository } from './state-repository.js';
+import { alertView, checkView, signalView, type AlertView, type CheckView, type SignalView } from './views.js';
+
+/** How many of a segment's latest points stay in memory for the change-point estimate. */
+export const SEGMENT_MEMORY = 500;
+
+export interface Repositories {
+  lines: LineRepository;
+  products: ProductRepository;
+  checks: CheckRepository;
+  alerts: AlertRepository;
+  limits: LimitsRepository;
+  monitorState: MonitorStateRepository;
+  audit: AuditRepository;
+}
+
+export type LiveEvent =
+  | { type: 'check'; at: string; lineId: number; check: CheckView; signals: SignalView[] }
+  | { type: 'alert-opened' | 'alert-updated'; at: string; lineId: number; alert: AlertView }
+  | { type: 'line-status'; at: string; lineId: number; reason: string };
+
+export interface MonitorOptions {
+  db: Db;
+  clock: Clock;
+  repos: Repositories;
+  overdueGraceMinutes: number;
+  /** Called after each commit with the messages it produced, in order. */
+  publish: (events: LiveEvent[]) => void;
+}
+
+export interface CheckInput {
+  weights: number[];
+  clientId: string;
+  takenAt?: number;
+  basis?: Basis;
+  note?: string | null;
+  confirmSuspect?: boolean;
+}
+
+export interface CheckResult {
+  created: boolean;
+  check: CheckView;
+  signals: SignalView[];
+  alerts: AlertView[];
+}
+
+interface SegmentPoint {
+  checkId: number;
+  takenAt: number;
+  mean: number;
+  n: number;
+  index: number;
+}
+
+interface WindowCheck {
+  checkId: number;
+  weights: number[];
+}
+
+/** What the monitor holds in memory for one line; rebuilt from storage at start. */
+interface LineRuntime {
+  line: Line;
+  run: Run | null;
+  product: Product | null;
+  ruleSet: RuleSet;
+  model: ProcessModel | null;
+  limitsVersionId: number | null;
+  limitsKey: string;
+  segment: SegmentState;
+  segmentStartCheckId: number | null;
+  points: SegmentPoint[];
+  window: WindowCheck[];
+  lastTakenAt: number | null;
+  /** Unresolved alerts of the current run, by kind and direction. */
+  openAlerts: Map<string, StoredAlert>;
+}
+
+const alertKey = (kind: AlertKind, direction: Direction | null) => `${kind}|${direction ?? '-'}`;
+
+function kindOf(rule: RuleId): AlertKind {
+  if (rule === 'spread-up') return 'spread-up';
+  if (rule === 'pack-below-t2') return 'pack-below-t2';
+  return 'mean-shift';
+}
+
+const SEVERITY_RANK: Record<Severity, number> = { watch: 1, act: 2 };
+
+interface PendingSignal {
+  rule: RuleId;
+  kind: AlertKind;
+  direction: Direction | null;
+  severity: Severity;
+  onsetIndex: number;
+  size: ShiftSize | null;
+}
+
+/**
+ * The per-line engine: every check goes through here, is judged on the line's in-memory segment
+ * (so its cost does not grow with history), and is stored together with its signals, the alerts
+ * they open or join, and the detectors' new state, in one transaction. Messages go out after commit.
+ */
+export class Monitor {
+  private readonly lines = new Map<number, LineRuntime>();
+  private readonly db: Db;
+  private readonly clock: Clock;
+  private readonly repos: Repositories;
+  private readonly graceMs: number;
+  private readonly publish: (events: LiveEvent[]) => void;
+
+  constructor(options: MonitorOptions) {
+    this.db = options.db;
+    this.clock = options.clock;
+    this.repos = options.repos;
+    this.graceMs = options.overdueGraceMinutes * 60_000;
+    this.publish = options.publish;
+    this.loadAll();
+  }
+
+  // ---------------------------------------------------------------- loading
+
+  private loadAll(): void {
+    const unresolved = this.repos.alerts.unresolved();
+    for (const line of this.repos.lines.list()) this.lines.set(line.id, this.loadLine(line, unresolved));
+  }
+
+  private loadLine(line: Line, unresolved: readonly StoredAlert[]): LineRuntime {
+    const run = this.repos.lines.openRun(line.id);
+    const product = run ? this.repos.products.get(run.productId) : null;
+    const runtime: LineRuntime = {
+      line,
+      run,
+      product,
+      ruleSet: resolveRuleSet(product?.rules),
+      model: null,
+      limitsVersionId: null,
+      limitsKey: 'none',
+      segment: freshSegment(),
+      segmentStartCheckId: null,
+      points: [],
+      window: [],
+      lastTakenAt: null,
+      openAlerts: new Map(),
+    };
+    if (!run || !product) return runtime;
+    this.applyLimits(runtime);
+    const stored = this.repos.monitorState.get(line.id);
+    if (stored && stored.runId === run.id && stored.limitsKey === runtime.limitsKey) {
+      runtime.segment = stored.segment;
+      runtime.segmentStartCheckId = stored.segmentStartCheckId;
+      if (stored.segmentStartCheckId !== null) {
+        const recent = this.repos.checks.latestOfRun(run.id, SEGMENT_MEMORY, stored.segmentStartCheckId);
+        const first = runtime.segment.count - recent.length;
+        runtime.points = recent.map((c, i) => ({ checkId: c.id, takenAt: c.takenAt, mean: c.mean, n: c.n, index: first + i }));
+      }
+    }
+    runtime.window = this.repos.checks
+      .latestOfRun(run.id, product.windowSize)
+      .map((c) => ({ checkId: c.id, weights: c.weights }));
+    runtime.lastTakenAt = this.repos.checks.lastTakenAt(run.id);
+    for (const alert of unresolved) {
+      if (alert.lineId === line.id && alert.runId === run.id) runtime.openAlerts.set(alertKey(alert.kind, alert.direction), alert);
+    }
+    return runtime;
+  }
+
+  /** Picks the limits in force: the latest approved version for this line and product, else the product's own target and σ. */
+  private applyLimits(runtime: LineRuntime): void {
+    const { line, product } = runtime;
+    if (!product) return;
+    const version = this.repos.limits.latest(line.id, product.id);
+    if (version) {
+      runtime.model = { centre: version.centre, sigma: version.sigma };
+      runtime.limitsVersionId = version.id;
+      runtime.limitsKey = `version:${version.id}`;
+    } else if (product.sigma !== null) {
+      runtime.model = { centre: product.target, sigma: product.sigma };
+      runtime.limitsVersionId = null;
+      runtime.limitsKey = `product:${product.id}:${product.target}:${product.sigma}:${product.updatedAt}`;
+    } else {
+      runtime.model = null;
+      runtime.limitsVersionId = null;
+      runtime.limitsKey = `product:${product.id}:no-sigma`;
+    }
+    runtime.ruleSet = resolveRuleSet(product.rules);
+  }
+
+  private runtime(lineId: number): LineRuntime {
+    let runtime = this.lines.get(lineId);
+    if (!runtime) {
+      const line = this.repos.lines.get(lineId);
+      if (!line) throw notFound(`line ${lineId}`);
+      runtime = this.loadLine(line, []);
+      this.lines.set(lineId, runtime);
+    }
+    return runtime;
+  }
+
+  /** A line was created or renamed, or a product it runs was edited: read it again from storage. */
+  reloadLine(lineId: number): void {
+    const line = this.repos.lines.get(lineId);
+    if (!line) return;
+    this.lines.set(lineId, this.loadLine(line, this.repos.alerts.unresolved()));
+  }
+
+  reloadLinesRunning(productId: number): void {
+    for (const runtime of [...this.lines.values()]) {
+      if (runtime.product?.id === productId) this.reloadLine(runtime.line.id);
+    }
+  }
+
+  // ---------------------------------------------------------------- checks
+
+  /** Stores and judges one check. Idempotent by clientId. Throws DomainError for anything the caller must fix. */
+  recordCheck(lineId: number, input: CheckInput, actor: string | null): CheckResult {
+    const existing = this.repos.checks.getByClientId(input.clientId);
+    if (existing) return this.replay(existing, lineId);
+
+    const runtime = this.runtime(lineId);
+    const { run, product } = runtime;
+    if (!run || !product) throw conflict(`no product is running on line ${runtime.line.code}: change over to a product first`);
+
+    const now = this.clock.now();
+    const takenAt = input.takenAt ?? now;
+    if (takenAt > now + 5 * 60_000) {
+      throw new DomainError(400, 'bad-request', 'takenAt: lies in the future', [{ field: 'takenAt', message: 'lies in the future' }]);
+    }
+    if (takenAt < run.startedAt) {
+      throw new DomainError(400, 'bad-request', 'takenAt: before the current run started', [
+        { field: 'takenAt', message: `before the current run started (${new Date(run.startedAt).toISOString()})` },
+      ]);
+    }
+    const basis = input.basis ?? 'net';
+    const nets = basis === 'gross' ? input.weights.map((w) => w - product.tare) : input.weights.slice();
+    const notPositive = nets.flatMap((w, i) => (w > 0 ? [] : [i]));
+    if (notPositive.length > 0) {
+      const issues = notPositive.map((i) => ({ field: `weights.${i}`, message: `after the tare of ${product.tare} ${product.unit} this is not above 0` }));
+      throw new DomainError(400, 'bad-request', `weights: ${issues.length} value(s) at or below the tare`, issues);
+    }
+    if (!input.confirmSuspect) {
+      const lo = 0.5 * product.nominal;
+      const hi = 1.5 * product.nominal;
+      const suspect = nets.flatMap((w, i) => (w < lo || w > hi ? [{ index: i, value: input.weights[i] as number }] : []));
+      if (suspect.length > 0) {
+        throw new DomainError(
+          422,
+          'suspect-weights',
+          `weights ${suspect.map((s) => s.value).join(', ')} lie outside ${lo}–${hi} ${product.unit} (half to one and a half times nominal): probably a slipped decimal; correct them or send confirmSuspect: true`,
+          suspect.map((s) => ({ field: `weights.${s.index}`, message: `${s.value} is outside ${lo}–${hi} ${product.unit}` })),
+          { suspect },
+        );
+      }
+    }
+
+    const own = summarizeSample(nets, product.target);
+    const belowT1 = product.t1 === null ? 0 : nets.filter((w) => w < (product.t1 as number)).length;
+    const belowT2 = product.t2 === null ? 0 : nets.filter((w) => w < (product.t2 as number)).length;
+    const windowChecks = [...runtime.window.slice(-(product.windowSize - 1)), { checkId: 0, weights: nets }];
+    const pooled = windowChecks.flatMap((c) => c.weights);
+    const windowed = summarizeSample(pooled, product.target);
+
+    const { nextSegment, pending } = this.judge(runtime, product, nets, own.mean, own.sd, own.range, belowT2);
+
+    const newCheck: NewCheck = {
+      lineId,
+      runId: run.id,
+      productId: product.id,
+      clientId: input.clientId,
+      takenAt,
+      recordedAt: now,
+      basis,
+      enteredBy: actor,
+      note: input.note ?? null,
+      revision: 1,
+      revisesCheckId: null,
+      revisionReason: null,
+      n: own.n,
+      mean: own.mean,
+      sd: own.sd,
+      range: own.range,
+      target: product.target,
+      belowT1,
+      belowT2,
+      windowChecks: windowChecks.length,
+      windowN: windowed.n,
+      windowMean: windowed.mean,
+      windowSd: windowed.sd,
+      limitsVersionId: runtime.limitsVersionId,
+      weights: nets,
+      grossWeights: basis === 'gross' ? input.weights.slice() : null,
+    };
+
+    const outcome = this.db.transaction(() => {
+      const checkId = this.repos.checks.insert(newCheck);
+      const segmentStartCheckId = runtime.segmentStartCheckId ?? checkId;
+      const point: SegmentPoint = { checkId, takenAt, mean: own.mean, n: own.n, index: runtime.segment.count };
+      const points = runtime.model ? [...runtime.points.slice(-(SEGMENT_MEMORY - 1)), point] : runtime.points;
+      const openAlerts = new Map(runtime.openAlerts);
+      const { signals, touched, opened } = this.storeSignals(runtime, openAlerts, points, pending, checkId, takenAt, now);
+      const overdue = openAlerts.get(alertKey('check-overdue', null));
+      if (overdue) {
+        const closed: StoredAlert = {
+          ...overdue,
+          state: 'resolved',
+          resolvedAt: now,
+          resolvedBy: 'heft',
+          cause: 'a check arrived',
+          action: 'none needed',
+          updatedAt: now,
+          latestCheckId: checkId,
+        };
+        this.repos.alerts.update(closed);
+        openAlerts.delete(alertKey('check-overdue', null));
+        touched.set(closed.id, closed);
+      }
+      if (runtime.model) {
+        this.repos.monitorState.save(
+          { lineId, runId: run.id, limitsKey: runtime.limitsKey, segmentStartCheckId, segment: nextSegment },
+          now,
+        );
+      }
+      return { checkId, segmentStartCheckId, points, openAlerts, signals, touched, opened };
+    }).immediate();
+
+    // committed: only now does memory move on
+    if (runtime.model) {
+      runtime.segment = nextSegment;
+      runtime.segmentStartCheckId = outcome.segmentStartCheckId;
+      runtime.points = outcome.points;
+    }
+    runtime.window = [...windowChecks.slice(0, -1), { checkId: outcome.checkId, weights: nets }];
+    runtime.lastTakenAt = Math.max(runtime.lastTakenAt ?? -Infinity, takenAt);
+    runtime.openAlerts = outcome.openAlerts;
+
+    const stored = this.repos.checks.get(outcome.checkId) as StoredCheck;
+    const check = checkView(stored);
+    const signals = outcome.signals.map(signalView);
+    const alerts = [...outcome.touched.values()].map((a) => alertView(a, this.repos.alerts.signalsOf(a.id)));
+    const at = new Date(now).toISOString();
+    this.publish([
+      { type: 'check', at, lineId, check, signals },
+      ...alerts.map((alert) => ({
+        type: outcome.opened.has(alert.id) ? ('alert-opened' as const) : ('alert-updated' as const),
+        at,
+        lineId,
+        alert,
+      })),
+    ]);
+    return { created: true, check, signals, alerts };
+  }
+
+  private replay(existing: StoredCheck, lineId: number): CheckResult {
+    if (existing.lineId !== lineId) {
+      throw conflict(`clientId ${existing.clientId} was already used for a check on another line`);
+    }
+    const stored = this.repos.alerts;
+    const alerts = stored.alertIdsForCheck(existing.id).map((id) => stored.get(id) as StoredAlert);
+    const signals = alerts.flatMap((a) => stored.signalsOf(a.id).filter((s) => s.checkId === existing.id));
+    return {
+      created: false,
+      check: checkView(existing),
+      signals: signals.map(signalView),
+      alerts: alerts.map((a) => alertView(a, stored.signalsOf(a.id))),
+    };
+  }
+
+  /** Runs the rules on the would-be next point; pure with respect to the runtime. */
+  private judge(
+    runtime: LineRuntime,
+    product: Product,
+    nets: readonly number[],
+    m: number,
+    sd: number | null,
+    r: number,
+    belowT2: number,
+  ): { nextSegment: SegmentState; pending: PendingSignal[] } {
+    const pending: PendingSignal[] = [];
+    const set = runtime.ruleSet;
+    let nextSegment = runtime.segment;
+    const model = runtime.model;
+    if (model) {
+      const n = nets.length;
+      const z = standardisedMean(m, n, model);
+      let spread: { value: number; ucl: number } | null = null;
+      if (n >= 2) {
+        const limits = spreadChartLimits(model.sigma, n);
+        spread = { value: limits.chart === 'S' ? (sd as number) : r, ucl: limits.ucl };
+      } else {
+        const previous = runtime.points[runtime.points.length - 1];
+        if (previous && previous.n === 1) {
+          spread = { value: Math.abs(m - previous.mean), ucl: spreadChartLimits(model.sigma, 1).ucl };
+        }
+      }
+      const judged = judgePoint(set, runtime.segment, { z, spread });
+      nextSegment = judged.state;
+      const meanSize: ShiftSize = { unit: m - model.centre, sigma: (m - model.centre) / model.sigma };
+      for (const s of judged.signals) {
+        pending.push(this.pendingFrom(s, set, model, meanSize, sd));
+      }
+    }
+    if (set.enabled['pack-below-t2'] && belowT2 > 0 && product.t2 !== null) {
+      const lowest = Math.min(...nets);
+      pending.push({
+        rule: 'pack-below-t2',
+        kind: 'pack-below-t2',
+        direction: 'down',
+        severity: set.severity['pack-below-t2'],
+        onsetIndex: runtime.segment.count,
+        size: { unit: lowest - product.t2, sigma: model ? (lowest - product.t2) / model.sigma : null },
+      });
+    }
+    return { nextSegment, pending };
+  }
+
+  private pendingFrom(s: RawSignal, set: RuleSet, model: ProcessModel, meanSize: ShiftSize, sd: number | null): PendingSignal {
+    const kind = kindOf(s.rule);
+    let size: ShiftSize = meanSize;
+    if (kind === 'spread-up') {
+      const excess = (sd ?? 0) - model.sigma;
+      size = { unit: excess, sigma: excess / model.sigma };
+    }
+    return { rule: s.rule, kind, direction: s.direction, severity: set.severity[s.rule], onsetIndex: s.onsetIndex, size };
+  }
+
+  /** Writes this check's signals, opening an alert per new kind and direction or joining the open one. */
+  private storeSignals(
+    runtime: LineRuntime,
+    openAlerts: Map<string, StoredAlert>,
+    points: readonly SegmentPoint[],
+    pending: readonly PendingSignal[],
+    checkId: number,
+    takenAt: number,
+    now: number,
+  ): { signals: StoredSignal[]; touched: Map<number, StoredAlert>; opened: Set<number> } {
+    const signals: StoredSignal[] = [];
+    const touched = new Map<number, StoredAlert>();
+    const opened = new Set<number>();
+    const pointAt = (index: number): SegmentPoint | null => {
+      if (points.length === 0) return null;
+      const first = points[0] as SegmentPoint;
+      const found = points[index - first.index];
+      return found ?? (index < first.index ? first : (points[points.length - 1] as SegmentPoint));
+    };
+    for (const p of pending) {
+      const onset = pointAt(p.onsetIndex);
+      const onsetCheckId = onset?.checkId ?? checkId;
+      const onsetAt = onset?.takenAt ?? takenAt;
+      const key = alertKey(p.kind, p.direction);
+      let alert = openAlerts.get(key);
+      const changePoint = p.kind === 'mean-shift' && p.direction !== null && runtime.model ? this.changePoint(points, runtime.model) : null;
+      const size = changePoint?.size ?? p.size;
+      if (!alert) {
+        alert = this.repos.alerts.insert({
+          lineId: runtime.line.id,
+          runId: runtime.run?.id ?? null,
+          kind: p.kind,
+          direction: p.direction,
+          severity: p.severity,
+          state: 'open',
+          rules: [p.rule],
+          openedAt: now,
+          onsetAt,
+          onsetCheckId,
+          changePointAt: changePoint?.at ?? null,
+          changePointCheckId: changePoint?.checkId ?? null,
+          size,
+          latestCheckId: checkId,
+          updatedAt: now,
+          acknowledgedBy: null,
+          acknowledgedAt: null,
+          acknowledgeNote: null,
+          resolvedBy: null,
+          resolvedAt: null,
+          cause: null,
+          action: null,
+        });
+        opened.add(alert.id);
+      } else {
+        const earlier = alert.onsetAt === null || onsetAt < alert.onsetAt;
+        alert = {
+          ...alert,
+          rules: alert.rules.includes(p.rule) ? alert.rules : [...alert.rules, p.rule],
+          severity: SEVERITY_RANK[p.severity] > SEVERITY_RANK[alert.severity] ? p.severity : alert.severity,
+          onsetAt: earlier ? onsetAt : alert.onsetAt,
+          onsetCheckId: earlier ? onsetCheckId : alert.onsetCheckId,
+          changePointAt: changePoint?.at ?? alert.changePointAt,
+          changePointCheckId: changePoint?.checkId ?? alert.changePointCheckId,
+          size,
+          latestCheckId: checkId,
+          updatedAt: now,
+        };
+        this.repos.alerts.update(alert);
+      }
+      openAlerts.set(key, alert);
+      touched.set(alert.id, alert);
+      signals.push(
+        this.repos.alerts.insertSignal({
+          alertId: alert.id,
+          checkId,
+          rule: p.rule,
+          severity: p.severity,
+          direction: p.direction,
+          at: takenAt,
+          size: p.size,
+          onsetCheckId,
+        }),
+      );
+    }
+    return { signals, touched, opened };
+  }
+
+  /** The most likely start of a step in the mean over the segment in memory (Samuel, Pignatiello & Calvin 1998). */
+  private changePoint(points: readonly SegmentPoint[], model: ProcessModel) {
+    const estimate = stepChangePoint(points, model.centre);
+    if (!estimate) return null;
+    const first = points[estimate.firstShiftedIndex] as SegmentPoint;
+    const shift = estimate.shiftedMean - model.centre;
+    return { at: first.takenAt, checkId: first.checkId, size: { unit: shift, sigma: shift / model.sigma } };
+  }
+
+  // ---------------------------------------------------------------- changeover and limits
+
+  /** Ends the running run (if any) and starts the product on the line. */
+  changeover(lineId: number, productId: number, actor: string): Run {
+    const runtime = this.runtime(lineId);
+    const product = this.repos.products.get(productId);
+    if (!product) throw notFound(`product ${productId}`);
+    const now = this.clock.now();
+    const before = runtime.run;
+    const touched: StoredAlert[] = [];
+    const run = this.db.transaction(() => {
+      if (before) this.repos.lines.endRun(before.id, now);
+      const started = this.repos.lines.startRun(lineId, productId, now);
+      const overdue = runtime.openAlerts.get(alertKey('check-overdue', null));
+      if (overdue) {
+        const closed: StoredAlert = { ...overdue, state: 'resolved', resolvedAt: now, resolvedBy: 'heft', cause: 'changeover', action: 'none needed', updatedAt: now };
+        this.repos.alerts.update(closed);
+        touched.push(closed);
+      }
+      this.repos.audit.record({
+        at: now,
+        actor,
+        action: 'line.changeover',
+        entity: 'line',
+        entityId: lineId,
+        before: before ? { runId: before.id, productId: before.productId } : null,
+        after: { runId: started.id, productId },
+      });
+      return started;
+    }).immediate();
+    this.reloadLine(lineId);
+    const at = new Date(now).toISOString();
+    this.publish([
+      ...touched.map((a) => ({ type: 'alert-updated' as const, at, lineId, alert: alertView(a, this.repos.alerts.signalsOf(a.id)) })),
+      { type: 'line-status', at, lineId, reason: 'changeover' },
+    ]);
+    return run;
+  }
+
+  /** New limits were approved for the line's running product: judge from a fresh segment. */
+  limitsChanged(lineId: number): void {
+    this.reloadLine(lineId);
+    this.publish([{ type: 'line-status', at: new Date(this.clock.now()).toISOString(), lineId, reason: 'limits' }]);
+  }
+
+  // ---------------------------------------------------------------- alerts
+
+  acknowledge(alertId: number, note: string, actor: string): AlertView {
+    return this.transition(alertId, actor, (alert, now) => {
+      if (alert.state !== 'open') throw conflict(`alert ${alertId} is ${alert.state}; only an open alert can be acknowledged`);
+      return { ...alert, state: 'acknowledged', acknowledgedAt: now, acknowledgedBy: actor, acknowledgeNote: note, updatedAt: now };
+    });
+  }
+
+  resolve(alertId: number, cause: string, action: string, actor: string): AlertView {
+    return this.transition(alertId, actor, (alert, now) => {
+      if (alert.state === 'resolved') throw conflict(`alert ${alertId} is already resolved`);
+      return { ...alert, state: 'resolved', resolvedAt: now, resolvedBy: actor, cause, action, updatedAt: now };
+    });
+  }
+
+  private transition(alertId: number, actor: string, change: (alert: StoredAlert, now: number) => StoredAlert): AlertView {
+    const now = this.clock.now();
+    const next = this.db.transaction(() => {
+      const alert = this.repos.alerts.get(alertId);
+      if (!alert) throw notFound(`alert ${alertId}`);
+      const updated = change(alert, now);
+      this.repos.alerts.update(updated);
+      this.repos.audit.record({
+        at: now,
+        actor,
+        action: `alert.${updated.state === 'resolved' ? 'resolve' : 'acknowledge'}`,
+        entity: 'alert',
+        entityId: alertId,
+        before: { state: alert.state },
+        after: updated.state === 'resolved' ? { state: updated.state, cause: updated.cause, action: updated.action } : { state: updated.state, note: updated.acknowledgeNote },
+      });
+      const runtime = this.lines.get(alert.lineId);
+      // A resolved shift means its cause was removed: the detectors start afresh on the next check,
+      // or they would signal again at once on evidence from before the fix.
+      if (updated.state === 'resolved' && updated.kind === 'mean-shift' && runtime?.run?.id === alert.runId && runtime.run && runtime.model) {
+        this.repos.monitorState.save(
+          { lineId: alert.lineId, runId: runtime.run.id, limitsKey: runtime.limitsKey, segmentStartCheckId: null, segment: freshSegment() },
+          now,
+        );
+      }
+      return updated;
+    }).immediate();
+    const runtime = this.lines.get(next.lineId);
+    if (runtime) {
+      const key = alertKey(next.kind, next.direction);
+      if (next.state === 'resolved') {
+        if (runtime.openAlerts.get(key)?.id === next.id) runtime.openAlerts.delete(key);
+        if (next.kind === 'mean-shift' && runtime.run?.id === next.runId && runtime.model) {
+          runtime.segment = freshSegment();
+          runtime.segmentStartCheckId = null;
+          runtime.points = [];
+        }
+      } else if (runtime.openAlerts.get(key)?.id === next.id) {
+        runtime.openAlerts.set(key, next);
+      }
+    }
+    const view = alertView(next, this.repos.alerts.signalsOf(next.id));
+    this.publish([{ type: 'alert-updated', at: new Date(now).toISOString(), lineId: next.lineId, alert: view }]);
+    return view;
+  }
+
+  // ---------------------------------------------------------------- overdue
+
+  /** Opens "check overdue" on every running line whose sampling interval plus grace has passed with no check. */
+  sweepOverdue(): AlertView[] {
+    const now = this.clock.now();
+    const opened: AlertView[] = [];
+    for (const runtime of this.lines.values()) {
+      const due = this.nextDue(runtime);
+      if (due === null || now <= due + this.graceMs) continue;
+      if (runtime.openAlerts.has(alertKey('check-overdue', null))) continue;
+      const alert = this.db.transaction(() =>
+        this.repos.alerts.insert({
+          lineId: runtime.line.id,
+          runId: runtime.run?.id ?? null,
+          kind: 'check-overdue',
+          direction: null,
+          severity: 'watch',
+          state: 'open',
+          rules: ['check-overdue'],
+          openedAt: now,
+          onsetAt: due,
+          onsetCheckId: null,
+          changePointAt: null,
+          changePointCheckId: null,
+          size: null,
+          latestCheckId: null,
+          updatedAt: now,
+          acknowledgedBy: null,
+          acknowledgedAt: null,
+          acknowledgeNote: null,
+          resolvedBy: null,
+          resolvedAt: null,
+          cause: null,
+          action: null,
+        }),
+      ).immediate();
+      runtime.openAlerts.set(alertKey('check-overdue', null), alert);
+      const view = alertView(alert, []);
+      opened.push(view);
+      this.publish([{ type: 'alert-opened', at: new Date(now).toISOString(), lineId: runtime.line.id, alert: view }]);
+    }
+    return opened;
+  }
+
+  private nextDue(runtime: LineRuntime): number | null {
+    if (!runtime.run || !runtime.product) return null;
+    const from = Math.max(runtime.lastTakenAt ?? runtime.run.startedAt, runtime.run.startedAt);
+    return from + runtime.product.samplingMinutes * 60_000;
+  }
+
+  // ---------------------------------------------------------------- reading
+
+  /** What the status route and the board show for a line, from memory. */
+  lineState(lineId: number) {
+    const runtime = this.runtime(lineId);
+    const { product, model, run } = runtime;
+    const due = this.nextDue(runtime);
+    const open = [...runtime.openAlerts.values()];
+    const status: 'steady' | 'watch' | 'act' = open.some((a) => a.severity === 'act')
+      ? 'act'
+      : open.length > 0
+        ? 'watch'
+        : 'steady';
+    const n = product?.subgroupSize ?? 1;
+    return {
+      line: runtime.line,
+      run,
+      product,
+      status,
+      ruleSet: runtime.ruleSet,
+      limits: model
+        ? {
+            source: runtime.limitsVersionId === null ? ('product' as const) : ('approved' as const),
+            versionId: runtime.limitsVersionId,
+            centre: model.centre,
+            sigma: model.sigma,
+            meanChart: meanChartLimits(model, n),
+            spreadChart: spreadChartLimits(model.sigma, n),
+          }
+        : null,
+      segment: runtime.segment,
+      openAlerts: open,
+      lastCheckAt: runtime.lastTakenAt,
+      nextCheckDue: due,
+      overdue: due !== null && this.clock.now() > due + this.graceMs,
+    };
+  }
+
+  lineIds(): number[] {
+    return [...this.lines.keys()];
+  }
+}

@@ -1,0 +1,105 @@
+import type { StoredAlert, StoredSignal } from '../alerts/repository.js';
+import type { StoredCheck } from '../checks/repository.js';
+import { toIso } from '../clock.js';
+import { inferFromMoments } from '../stats/sample-summary.js';
+import { RULE_CATALOGUE } from '../stats/rules.js';
+
+/** The JSON shapes the API and the live feed answer with (API.md). */
+
+export function checkView(c: StoredCheck) {
+  const own = inferFromMoments(c.n, c.mean, c.sd, c.target);
+  const windowed = inferFromMoments(c.windowN, c.windowMean, c.windowSd, c.target);
+  return {
+    id: c.id,
+    lineId: c.lineId,
+    productId: c.productId,
+    runId: c.runId,
+    clientId: c.clientId,
+    takenAt: toIso(c.takenAt),
+    recordedAt: toIso(c.recordedAt),
+    basis: c.basis,
+    weights: c.weights,
+    grossWeights: c.grossWeights,
+    n: c.n,
+    mean: c.mean,
+    sd: c.sd,
+    range: c.range,
+    se: own.se,
+    t: own.t,
+    df: own.df,
+    p: own.p,
+    ci95: own.ci95,
+    unavailable: own.unavailable,
+    target: c.target,
+    belowT1: c.belowT1,
+    belowT2: c.belowT2,
+    revision: c.revision,
+    revisesCheckId: c.revisesCheckId,
+    supersededBy: c.supersededBy,
+    revisionReason: c.revisionReason,
+    enteredBy: c.enteredBy,
+    note: c.note,
+    limitsVersionId: c.limitsVersionId,
+    window: {
+      checks: c.windowChecks,
+      n: c.windowN,
+      mean: c.windowMean,
+      sd: c.windowSd,
+      se: windowed.se,
+      t: windowed.t,
+      df: windowed.df,
+      p: windowed.p,
+      ci95: windowed.ci95,
+      unavailable: windowed.unavailable,
+    },
+  };
+}
+
+export type CheckView = ReturnType<typeof checkView>;
+
+const WORDS = new Map<string, string>([...RULE_CATALOGUE.map((r) => [r.id, r.words] as const), ['check-overdue', 'check overdue']]);
+
+/** The words a screen shows for a rule id. */
+export function ruleWords(rule: string): string {
+  return WORDS.get(rule) ?? rule;
+}
+
+export function signalView(s: StoredSignal) {
+  return {
+    rule: s.rule,
+    words: ruleWords(s.rule),
+    severity: s.severity,
+    checkId: s.checkId,
+    at: toIso(s.at),
+    direction: s.direction,
+    size: s.size,
+    onsetCheckId: s.onsetCheckId,
+  };
+}
+
+export type SignalView = ReturnType<typeof signalView>;
+
+export function alertView(a: StoredAlert, signals: readonly StoredSignal[]) {
+  return {
+    id: a.id,
+    lineId: a.lineId,
+    runId: a.runId,
+    kind: a.kind,
+    direction: a.direction,
+    severity: a.severity,
+    state: a.state,
+    rules: a.rules,
+    ruleWords: a.rules.map(ruleWords),
+    signals: signals.map(signalView),
+    openedAt: toIso(a.openedAt),
+    updatedAt: toIso(a.updatedAt),
+    onset: { at: toIso(a.onsetAt), checkId: a.onsetCheckId },
+    changePoint: a.changePointCheckId === null ? null : { at: toIso(a.changePointAt), checkId: a.changePointCheckId },
+    size: a.size,
+    latestCheckId: a.latestCheckId,
+    acknowledged: a.acknowledgedAt === null ? null : { by: a.acknowledgedBy, at: toIso(a.acknowledgedAt), note: a.acknowledgeNote },
+    resolved: a.resolvedAt === null ? null : { by: a.resolvedBy, at: toIso(a.resolvedAt), cause: a.cause, action: a.action },
+  };
+}
+
+export type AlertView = ReturnType<typeof alertView>;

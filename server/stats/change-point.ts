@@ -1,0 +1,40 @@
+export interface ChangePointInput {
+  mean: number;
+  n: number;
+}
+
+export interface ChangePointEstimate {
+  /** Index of the first point after the estimated change. */
+  firstShiftedIndex: number;
+  /** Estimated process mean after the change (n-weighted mean of the shifted points). */
+  shiftedMean: number;
+}
+
+/**
+ * Maximum-likelihood time of a step change in a normal mean with known centre and σ
+ * (Samuel, Pignatiello & Calvin, J. Quality Technology 30(2) 1998): τ̂ = argmax_t (Σ_{i>t} nᵢ(x̄ᵢ − μ₀))² / Σ_{i>t} nᵢ,
+ * written with weights nᵢ so that checks of different sizes count by their packs.
+ */
+export function stepChangePoint(points: readonly ChangePointInput[], centre: number): ChangePointEstimate | null {
+  if (points.length === 0) return null;
+  let bestIndex = 0;
+  let bestScore = -Infinity;
+  let sumDev = 0;
+  let sumN = 0;
+  let bestSumDev = 0;
+  let bestSumN = 1;
+  // walk backwards so each candidate start t sees the sums over points t..T
+  for (let t = points.length - 1; t >= 0; t -= 1) {
+    const p = points[t] as ChangePointInput;
+    sumDev += p.n * (p.mean - centre);
+    sumN += p.n;
+    const score = (sumDev * sumDev) / sumN;
+    if (score >= bestScore) {
+      bestScore = score;
+      bestIndex = t;
+      bestSumDev = sumDev;
+      bestSumN = sumN;
+    }
+  }
+  return { firstShiftedIndex: bestIndex, shiftedMean: centre + bestSumDev / bestSumN };
+}

@@ -1,0 +1,17 @@
+// jstat ships no type declarations; these cover the functions Heft calls.
+declare module 'jstat' {
+  interface ContinuousDistribution {
+    cdf(x: number, ...params: number[]): number;
+    inv(p: number, ...params: number[]): number;
+    pdf(x: number, ...params: number[]): number;
+  }
+  const jStat: {
+    studentt: ContinuousDistribution;
+    normal: ContinuousDistribution;
+    chisquare: ContinuousDistribution;
+    centralF: ContinuousDistribution;
+    gammaln(x: number): number;
+    gammafn(x: number): number;
+  };
+  export default jStat;
+}
