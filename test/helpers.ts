@@ -38,7 +38,8 @@ export async function makeTestApp(options: { start?: number; dir?: string; confi
   const dir = options.dir ?? mkdtempSync(join(tmpdir(), 'heft-test-'));
   const file = join(dir, 'heft.db');
   const clock = new ManualClock(options.start ?? Date.parse('2026-03-02T06:00:00Z'));
-  const config = parseConfig([], {}, { db: file, ...options.config });
+  // sessions outlive the long hand-moved histories of most tests; the session tests set their own limits
+  const config = parseConfig([], {}, { db: file, sessionIdleMinutes: 60 * 24 * 365, sessionMaxHours: 24 * 365, ...options.config });
   const db = openDatabase(file);
   migrate(db);
   const events: LiveEvent[] = [];

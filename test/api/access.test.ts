@@ -1,0 +1,231 @@
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { buildApp } from '../../server/app.js';
+import { LOCKOUT_AFTER_FAILURES } from '../../server/auth/service.js';
+import { makeTestApp, postCheck, removeDir, SECRETS, setupLine, weightsWithMean, type TestApp } from '../helpers.js';
+
+type Principal = 'anonymous' | 'operator' | 'supervisor' | 'quality' | 'admin' | 'checks-token' | 'board-token';
+const PRINCIPALS: Principal[] = ['anonymous', 'operator', 'supervisor', 'quality', 'admin', 'checks-token', 'board-token'];
+const PEOPLE: Principal[] = ['operator', 'supervisor', 'quality', 'admin'];
+const BOARD: Principal[] = [...PEOPLE, 'board-token'];
+const SUP: Principal[] = ['supervisor', 'quality', 'admin'];
+const QUAL: Principal[] = ['quality', 'admin'];
+const ADMIN: Principal[] = ['admin'];
+const ANYONE: Principal[] = PRINCIPALS;
+
+/** Every route, who may call it, and the probe request with the status an allowed caller gets. */
+const MATRIX: Record<string, { who: Principal[]; url: string; payload?: object; ok: number }> = {
+  'GET /api/health': { who: ANYONE, url: '/api/health', ok: 200 },
+  'POST /api/session': { who: ANYONE, url: '/api/session', payload: {}, ok: 400 },
+  'GET /api/session': { who: PEOPLE, url: '/api/session', ok: 200 },
+  'DELETE /api/session': { who: PEOPLE, url: '/api/session', ok: 204 },
+  'GET /api/rules': { who: PEOPLE, url: '/api/rules', ok: 200 },
+  'GET /api/users': { who: ADMIN, url: '/api/users', ok: 200 },
+  'POST /api/users': { who: ADMIN, url: '/api/users', payload: {}, ok: 400 },
+  'PATCH /api/users/:id': { who: ADMIN, url: '/api/users/1', payload: {}, ok: 200 },
+  'GET /api/tokens': { who: ADMIN, url: '/api/tokens', ok: 200 },
+  'POST /api/tokens': { who: ADMIN, url: '/api/tokens', payload: {}, ok: 400 },
+  'DELETE /api/tokens/:id': { who: ADMIN, url: '/api/tokens/999', ok: 404 },
+  'GET /api/lines': { who: BOARD, url: '/api/lines', ok: 200 },
+  'GET /api/lines/:lineId': { who: BOARD, url: '/api/lines/1', ok: 200 },
+  'POST /api/lines': { who: ADMIN, url: '/api/lines', payload: {}, ok: 400 },
+  'PATCH /api/lines/:lineId': { who: ADMIN, url: '/api/lines/1', payload: {}, ok: 200 },
+  'PUT /api/lines/:lineId/product': { who: SUP, url: '/api/lines/1/product', payload: {}, ok: 400 },
+  'GET /api/products': { who: BOARD, url: '/api/products', ok: 200 },
+  'GET /api/products/:productId': { who: BOARD, url: '/api/products/1', ok: 200 },
+  'POST /api/products': { who: ADMIN, url: '/api/products', payload: {}, ok: 400 },
+  'PATCH /api/products/:productId': { who: ADMIN, url: '/api/products/1', payload: {}, ok: 200 },
+  'POST /api/lines/:lineId/checks': { who: [...PEOPLE, 'checks-token'], url: '/api/lines/1/checks', payload: {}, ok: 400 },
+  'GET /api/lines/:lineId/checks': { who: BOARD, url: '/api/lines/1/checks', ok: 200 },
+  'GET /api/lines/:lineId/status': { who: BOARD, url: '/api/lines/1/status', ok: 200 },
+  'GET /api/alerts': { who: BOARD, url: '/api/alerts', ok: 200 },
+  'GET /api/alerts/:id': { who: BOARD, url: '/api/alerts/1', ok: 200 },
+  'POST /api/alerts/:id/acknowledge': { who: SUP, url: '/api/alerts/1/acknowledge', payload: {}, ok: 400 },
+  'POST /api/alerts/:id/resolve': { who: SUP, url: '/api/alerts/1/resolve', payload: {}, ok: 400 },
+  'GET /api/lines/:lineId/limits': { who: BOARD, url: '/api/lines/1/limits', ok: 200 },
+  'POST /api/lines/:lineId/limits/proposal': { who: QUAL, url: '/api/lines/1/limits/proposal', payload: {}, ok: 400 },
+  'POST /api/lines/:lineId/limits': { who: QUAL, url: '/api/lines/1/limits', payload: {}, ok: 400 },
+  'GET /api/audit': { who: QUAL, url: '/api/audit', ok: 200 },
+};
+
+let t: TestApp;
+const tokens: Record<'checks-token' | 'board-token', string> = { 'checks-token': '', 'board-token': '' };
+
+beforeAll(async () => {
+  t = await makeTestApp();
+  await setupLine(t);
+  t.clock.advance(3_600_000);
+  await postCheck(t, 1, weightsWithMean(512)); // opens alert 1
+  tokens['checks-token'] = t.app.heft.auth.createToken({ name: 'scale 1', kind: 'checks', lineIds: [1] }, 'test').token;
+  tokens['board-token'] = t.app.heft.auth.createToken({ name: 'wall', kind: 'board', lineIds: [] }, 'test').token;
+});
+afterAll(async () => {
+  await t.close();
+  removeDir(t.dir);
+});
+
+async function headersFor(p: Principal): Promise<Record<string, string>> {
+  if (p === 'anonymous') return {};
+  if (p === 'checks-token' || p === 'board-token') return { authorization: `Bearer ${tokens[p]}` };
+  return { cookie: t.cookies[p] };
+}
+
+describe('the access matrix', () => {
+  it('when Fastify lists its routes, then every one is in the matrix and declares its roles', () => {
+    const listed = t.app.routeTable.filter((r) => r.method !== 'HEAD').map((r) => `${r.method} ${r.url}`).sort();
+    expect(listed).toEqual(Object.keys(MATRIX).sort());
+    for (const r of t.app.routeTable) expect(r.roles.length).toBeGreaterThan(0);
+  });
+
+  it('when a route is added without roles, then the app refuses to start', async () => {
+    const broken = await buildApp({ db: t.db, clock: t.clock, config: t.config });
+    expect(() => broken.get('/api/secret', async () => 'x')).toThrow(/declares no roles/);
+    await broken.close();
+  });
+
+  for (const [route, spec] of Object.entries(MATRIX)) {
+    for (const principal of PRINCIPALS) {
+      const allowed = spec.who.includes(principal);
+      const expected = allowed ? spec.ok : principal === 'anonymous' ? 401 : 403;
+      it(`when ${principal} calls ${route}, then ${expected}`, async () => {
+        const [method] = route.split(' ') as [string];
+        const res = await t.app.inject({
+          method: method as 'GET',
+          url: spec.url,
+          headers: await headersFor(principal),
+          ...(spec.payload ? { payload: spec.payload } : {}),
+        });
+        expect(res.statusCode, res.body).toBe(expected);
+        if (route === 'DELETE /api/session' && allowed) {
+          const again = await t.app.inject({ method: 'POST', url: '/api/session', payload: { username: principal, secret: SECRETS[principal as 'admin'] } });
+          t.cookies[principal as 'admin'] = String(again.headers['set-cookie']).split(';')[0] as string;
+        }
+      });
+    }
+  }
+
+  it('when a checks token posts for a line it does not name, then 403', async () => {
+    await setupLine(t, {}, 'L2');
+    const res = await t.app.inject({ method: 'POST', url: '/api/lines/2/checks', headers: { authorization: `Bearer ${tokens['checks-token']}` }, payload: { weights: [503], clientId: crypto.randomUUID() } });
+    expect(res.statusCode).toBe(403);
+    expect(res.json().message).toMatch(/only for lines 1/);
+  });
+
+  it('when a token is revoked, then it is refused with 401', async () => {
+    const { token, record } = t.app.heft.auth.createToken({ name: 'old scale', kind: 'checks', lineIds: [1] }, 'test');
+    const del = await t.app.inject({ method: 'DELETE', url: `/api/tokens/${record.id}`, headers: { cookie: t.cookies.admin } });
+    expect(del.statusCode).toBe(200);
+    const res = await t.app.inject({ method: 'POST', url: '/api/lines/1/checks', headers: { authorization: `Bearer ${token}` }, payload: { weights: [503], clientId: crypto.randomUUID() } });
+    expect(res.statusCode).toBe(401);
+  });
+});
+
+describe('sign-in, sessions and origin', () => {
+  // sign-in has its own rate limit per address, which the matrix above has used up: a fresh app here
+  let s: TestApp;
+  beforeAll(async () => {
+    s = await makeTestApp();
+  });
+  afterAll(async () => {
+    await s.close();
+    removeDir(s.dir);
+  });
+
+  it('when a PIN is guessed wrong repeatedly, then the user is locked out, the lockout is audited, and the right PIN is refused until an admin resets it', async () => {
+    await s.app.heft.auth.addUser({ username: 'guessed', displayName: 'G', role: 'operator', secret: '4321' }, 'test');
+    for (let i = 0; i < LOCKOUT_AFTER_FAILURES; i += 1) {
+      const res = await s.app.inject({ method: 'POST', url: '/api/session', payload: { username: 'guessed', secret: String(1000 + i) } });
+      expect(res.statusCode).toBe(401);
+    }
+    const locked = await s.app.inject({ method: 'POST', url: '/api/session', payload: { username: 'guessed', secret: '4321' } });
+    expect(locked.statusCode).toBe(423);
+    const audit = (await s.app.inject({ method: 'GET', url: '/api/audit?entity=user', headers: { cookie: s.cookies.admin } })).json().entries;
+    expect(audit.some((e: { action: string; after: { username: string } }) => e.action === 'user.locked' && e.after.username === 'guessed')).toBe(true);
+    const users = (await s.app.inject({ method: 'GET', url: '/api/users', headers: { cookie: s.cookies.admin } })).json().users;
+    expect(users.find((u: { username: string }) => u.username === 'guessed').locked).toBe(true);
+    const id = users.find((u: { username: string }) => u.username === 'guessed').id;
+    await s.app.inject({ method: 'PATCH', url: `/api/users/${id}`, headers: { cookie: s.cookies.admin }, payload: { secret: '5678' } });
+    expect((await s.app.inject({ method: 'POST', url: '/api/session', payload: { username: 'guessed', secret: '5678' } })).statusCode).toBe(200);
+  });
+
+  it('when a PIN is too short or a password too weak, then 400 names the secret', async () => {
+    const short = await t.app.inject({ method: 'POST', url: '/api/users', headers: { cookie: t.cookies.admin }, payload: { username: 'newop', displayName: 'N', role: 'operator', secret: '12' } });
+    expect(short.statusCode).toBe(400);
+    expect(short.json().issues[0].field).toBe('secret');
+    const weak = await t.app.inject({ method: 'POST', url: '/api/users', headers: { cookie: t.cookies.admin }, payload: { username: 'newq', displayName: 'N', role: 'quality', secret: 'short-pass' } });
+    expect(weak.statusCode).toBe(400);
+    expect(weak.json().message).toMatch(/12 characters/);
+  });
+
+  it('when a session sits idle too long or grows too old, then it ends (injected clock)', async () => {
+    const u = await makeTestApp({ config: { sessionIdleMinutes: 30, sessionMaxHours: 2 } });
+    const who = () => u.app.inject({ method: 'GET', url: '/api/session', headers: { cookie: u.cookies.operator } });
+    expect((await who()).statusCode).toBe(200);
+    u.clock.advance(29 * 60_000);
+    expect((await who()).statusCode).toBe(200);
+    u.clock.advance(29 * 60_000);
+    expect((await who()).statusCode).toBe(200); // kept alive by use
+    u.clock.advance(31 * 60_000);
+    expect((await who()).statusCode).toBe(401); // idle
+    const fresh = await u.app.inject({ method: 'POST', url: '/api/session', payload: { username: 'operator', secret: SECRETS.operator } });
+    const cookie = String(fresh.headers['set-cookie']).split(';')[0] as string;
+    for (let i = 0; i < 5; i += 1) {
+      u.clock.advance(25 * 60_000);
+      expect((await u.app.inject({ method: 'GET', url: '/api/session', headers: { cookie } })).statusCode).toBe(i < 4 ? 200 : 401);
+    }
+    await u.close();
+    removeDir(u.dir);
+  });
+
+  it('when a state change arrives from another origin, then 403; from our own origin, it goes through', async () => {
+    const cross = await t.app.inject({ method: 'POST', url: '/api/alerts/1/acknowledge', headers: { cookie: t.cookies.supervisor, origin: 'http://evil.example', host: 'localhost:80' }, payload: { note: 'x' } });
+    expect(cross.statusCode).toBe(403);
+    expect(cross.json().error).toBe('cross-origin');
+    const site = await t.app.inject({ method: 'POST', url: '/api/alerts/1/acknowledge', headers: { cookie: t.cookies.supervisor, 'sec-fetch-site': 'cross-site' }, payload: { note: 'x' } });
+    expect(site.statusCode).toBe(403);
+    const same = await t.app.inject({ method: 'POST', url: '/api/alerts/1/acknowledge', headers: { cookie: t.cookies.supervisor, origin: 'http://localhost:80', host: 'localhost:80' }, payload: { note: 'seen' } });
+    expect(same.statusCode).toBe(200);
+  });
+
+  it('when the session cookie is set, then it is httpOnly and SameSite=Strict; responses carry security headers', async () => {
+    const res = await s.app.inject({ method: 'POST', url: '/api/session', payload: { username: 'operator', secret: SECRETS.operator } });
+    const cookie = String(res.headers['set-cookie']);
+    expect(cookie).toMatch(/HttpOnly/);
+    expect(cookie).toMatch(/SameSite=Strict/);
+    expect(res.headers['content-security-policy']).toMatch(/script-src 'self'/);
+    expect(res.headers['x-content-type-options']).toBe('nosniff');
+    // the stored session id is a hash, not the cookie value
+    const value = cookie.split(';')[0]?.split('=')[1] as string;
+    expect(s.db.prepare('SELECT COUNT(*) AS n FROM sessions WHERE id_hash = ?').get(value)).toEqual({ n: 0 });
+  });
+
+  it('when sign-in is hammered, then the rate limit answers 429', async () => {
+    const r = await makeTestApp();
+    let last = 0;
+    for (let i = 0; i < 25; i += 1) {
+      last = (await r.app.inject({ method: 'POST', url: '/api/session', payload: { username: 'nobody', secret: 'x' } })).statusCode;
+    }
+    expect(last).toBe(429);
+    await r.close();
+    removeDir(r.dir);
+  });
+});
+
+describe('free text', () => {
+  const NASTY = [`Robert'); DROP TABLE checks;--`, '<script>alert("x")</script>', `" OR 1=1 --`, 'ümlaut & ampersand <b>bold</b>'];
+  it('when notes, causes and names carry quotes and script tags, then they are stored verbatim and served as JSON text', async () => {
+    for (const text of NASTY) {
+      const line = await t.app.inject({ method: 'PATCH', url: '/api/lines/1', headers: { cookie: t.cookies.admin }, payload: { name: text } });
+      expect(line.statusCode).toBe(200);
+      expect(line.json().line.name).toBe(text);
+      expect(line.headers['content-type']).toMatch(/application\/json/);
+      t.clock.advance(60_000);
+      const check = await postCheck(t, 1, weightsWithMean(503), { note: text });
+      expect(check.json().check.note).toBe(text);
+      const ack = await t.app.inject({ method: 'POST', url: '/api/alerts/1/resolve', headers: { cookie: t.cookies.supervisor }, payload: { cause: text, action: text } });
+      if (ack.statusCode === 200) expect(ack.json().alert.resolved.cause).toBe(text);
+    }
+    const stored = t.db.prepare('SELECT note FROM checks WHERE note IS NOT NULL ORDER BY id').all() as { note: string }[];
+    expect(stored.map((r) => r.note)).toEqual(NASTY);
+    expect(t.db.prepare("SELECT COUNT(*) AS n FROM sqlite_master WHERE name = 'checks'").get()).toEqual({ n: 1 });
+  });
+});
