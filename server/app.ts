@@ -21,6 +21,9 @@ import { installErrorHandler } from './error-handler.js';
 import { healthPlugin } from './health/routes.js';
 import { limitsPlugin } from './limits/routes.js';
 import { createLimitsRepository } from './limits/repository.js';
+import { LiveHub } from './live/hub.js';
+import { createLiveRepository } from './live/repository.js';
+import { livePlugin } from './live/routes.js';
 import { linesPlugin } from './lines/routes.js';
 import { createLineRepository } from './lines/repository.js';
 import { Monitor, type LiveEvent } from './monitor/monitor.js';
@@ -51,6 +54,7 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
   const app = Fastify({
     logger: options.logger ?? false,
     bodyLimit: 256 * 1024,
+    forceCloseConnections: true,
     routerOptions: { maxParamLength: 200 },
   });
   app.setValidatorCompiler(validatorCompiler);
@@ -67,6 +71,7 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
     limits: createLimitsRepository(db),
     monitorState: createMonitorStateRepository(db),
     audit: createAuditRepository(db),
+    live: createLiveRepository(db),
     auth: createAuthRepository(db),
   };
   const monitor = new Monitor({
@@ -94,6 +99,9 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
   });
   const ctx: HeftContext = { db, clock, config, repos, monitor, auth };
   app.decorate('heft', ctx);
+  const hub = new LiveHub({ live: repos.live, now: () => clock.now() });
+  listeners.push((events) => hub.publish(events));
+  app.decorate('liveHub', hub);
 
   await app.register(helmet, {
     contentSecurityPolicy: {
@@ -117,11 +125,16 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
   await app.register(alertsPlugin, { ctx });
   await app.register(limitsPlugin, { ctx });
   await app.register(auditPlugin, { ctx });
+  await app.register(livePlugin, { ctx, hub });
 
   if (options.overdueTimer) {
+    let sweeps = 0;
     const timer = setInterval(() => {
       try {
         monitor.sweepOverdue();
+        // once an hour: live messages older than a week are only needed by nobody
+        sweeps += 1;
+        if (sweeps % 240 === 0) repos.live.prune(clock.now() - 7 * 24 * 3_600_000);
       } catch (err) {
         app.log.error({ err }, 'overdue sweep failed');
       }

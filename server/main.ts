@@ -52,7 +52,9 @@ async function main(): Promise<void> {
     config,
     logger: { level: config.logLevel },
     overdueTimer: true,
-    onLive: (events) => live.forEach((l) => l(events)),
+    onLive: (events) => {
+      for (const listen of live) listen(events);
+    },
   });
 
   let stopSimulator = () => {};

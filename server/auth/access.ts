@@ -31,6 +31,8 @@ declare module 'fastify' {
 }
 
 export const SESSION_COOKIE = 'heft_session';
+/** A wall screen's board token, kept in a cookie so the page's fetches and its WebSocket carry it. */
+export const BOARD_COOKIE = 'heft_board';
 
 const SAFE_METHODS = new Set(['GET', 'HEAD', 'OPTIONS']);
 
@@ -73,6 +75,13 @@ export function installAccess(app: FastifyInstance, auth: AuthService): void {
       const sessionId = request.cookies?.[SESSION_COOKIE];
       if (sessionId) {
         request.actor = auth.sessionActor(sessionId);
+        viaCookie = request.actor !== null;
+      }
+      const boardToken = request.cookies?.[BOARD_COOKIE];
+      if (!request.actor && boardToken) {
+        const actor = auth.tokenActor(boardToken);
+        // only a board token may ride in this cookie
+        request.actor = actor?.kind === 'token' && actor.tokenKind === 'board' ? actor : null;
         viaCookie = request.actor !== null;
       }
     }

@@ -1,11 +1,11 @@
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { ADMIN, requireActor, SESSION_COOKIE, SIGNED_IN } from './access.js';
+import { ADMIN, BOARD_COOKIE, requireActor, SESSION_COOKIE, SIGNED_IN } from './access.js';
 import { actorName } from './service.js';
 import type { HeftContext } from '../context.js';
 import { toIso } from '../clock.js';
-import { conflict, notFound } from '../errors.js';
+import { conflict, notFound, unauthorized } from '../errors.js';
 import { freeText, idParam } from '../shared/schemas.js';
 import { ROLES, type Role } from './secrets.js';
 import type { MachineToken, User } from './repository.js';
@@ -36,6 +36,21 @@ export const authPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fasti
         maxAge: config.sessionMaxHours * 3600,
       });
       return { user: { username: user.username, displayName: user.displayName, role: user.role } };
+    },
+  );
+
+  // A wall screen opens its board link once; the token then lives in an httpOnly cookie.
+  app.post(
+    '/api/board-session',
+    {
+      config: { roles: ['anyone'], rateLimit: { max: 20, timeWindow: '1 minute' } },
+      schema: { body: z.strictObject({ token: z.string().min(1).max(200) }) },
+    },
+    async (req, reply) => {
+      const actor = auth.tokenActor(req.body.token);
+      if (!actor || actor.kind !== 'token' || actor.tokenKind !== 'board') throw unauthorized('that board token is not valid or was revoked');
+      reply.setCookie(BOARD_COOKIE, req.body.token, { httpOnly: true, sameSite: 'strict', secure: config.secureCookies, path: '/', maxAge: 400 * 24 * 3600 });
+      return { board: { name: actor.name } };
     },
   );
 

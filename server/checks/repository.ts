@@ -150,7 +150,9 @@ export function createCheckRepository(db: Db) {
   return {
     insert(check: NewCheck): number {
       const id = Number(insertCheck.run(check).lastInsertRowid);
-      check.weights.forEach((net, i) => insertPack.run(id, i, net, check.grossWeights?.[i] ?? null));
+      check.weights.forEach((net, i) => {
+        insertPack.run(id, i, net, check.grossWeights?.[i] ?? null);
+      });
       return id;
     },
     markSuperseded(id: number, by: number): boolean {

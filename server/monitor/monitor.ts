@@ -13,6 +13,7 @@ import { freshSegment, judgePoint, type RawSignal, type SegmentState } from '../
 import { resolveRuleSet, type RuleSet } from '../stats/rule-set.js';
 import type { Direction, RuleId, Severity } from '../stats/rules.js';
 import { summarizeSample } from '../stats/sample-summary.js';
+import type { LiveRepository } from '../live/repository.js';
 import type { MonitorStateRepository } from './state-repository.js';
 import { alertView, checkView, signalView, type AlertView, type CheckView, type SignalView } from './views.js';
 
@@ -27,12 +28,17 @@ export interface Repositories {
   limits: LimitsRepository;
   monitorState: MonitorStateRepository;
   audit: AuditRepository;
+  live: LiveRepository;
 }
 
-export type LiveEvent =
-  | { type: 'check'; at: string; lineId: number; check: CheckView; signals: SignalView[] }
-  | { type: 'alert-opened' | 'alert-updated'; at: string; lineId: number; alert: AlertView }
-  | { type: 'line-status'; at: string; lineId: number; reason: string };
+/** A live message before it is numbered. */
+export type LiveEventBody =
+  | { type: 'check'; lineId: number; check: CheckView; signals: SignalView[] }
+  | { type: 'alert-opened' | 'alert-updated'; lineId: number; alert: AlertView }
+  | { type: 'line-status'; lineId: number; reason: string };
+
+/** A live message as stored and sent: numbered by seq, stamped with its time. */
+export type LiveEvent = LiveEventBody & { seq: number; at: string };
 
 export interface MonitorOptions {
   db: Db;
@@ -129,6 +135,14 @@ export class Monitor {
     this.graceMs = options.overdueGraceMinutes * 60_000;
     this.publish = options.publish;
     this.loadAll();
+  }
+
+  /** Numbers and stores live messages; call inside the transaction whose change they report. */
+  private record(at: number, bodies: LiveEventBody[]): LiveEvent[] {
+    return bodies.map((body) => {
+      const { type, lineId, ...rest } = body;
+      return this.repos.live.append({ type, at, lineId, body: rest }) as unknown as LiveEvent;
+    });
   }
 
   // ---------------------------------------------------------------- loading
@@ -333,7 +347,18 @@ export class Monitor {
           now,
         );
       }
-      return { checkId, segmentStartCheckId, points, openAlerts, signals, touched, opened };
+      const check = checkView(this.repos.checks.get(checkId) as StoredCheck);
+      const signalViews = signals.map(signalView);
+      const alertViews = [...touched.values()].map((a) => alertView(a, this.repos.alerts.signalsOf(a.id)));
+      const messages = this.record(now, [
+        { type: 'check', lineId, check, signals: signalViews },
+        ...alertViews.map((alert) => ({
+          type: opened.has(alert.id) ? ('alert-opened' as const) : ('alert-updated' as const),
+          lineId,
+          alert,
+        })),
+      ]);
+      return { checkId, segmentStartCheckId, points, openAlerts, check, signalViews, alertViews, messages };
     }).immediate();
 
     // committed: only now does memory move on
@@ -346,21 +371,8 @@ export class Monitor {
     runtime.lastTakenAt = Math.max(runtime.lastTakenAt ?? -Infinity, takenAt);
     runtime.openAlerts = outcome.openAlerts;
 
-    const stored = this.repos.checks.get(outcome.checkId) as StoredCheck;
-    const check = checkView(stored);
-    const signals = outcome.signals.map(signalView);
-    const alerts = [...outcome.touched.values()].map((a) => alertView(a, this.repos.alerts.signalsOf(a.id)));
-    const at = new Date(now).toISOString();
-    this.publish([
-      { type: 'check', at, lineId, check, signals },
-      ...alerts.map((alert) => ({
-        type: outcome.opened.has(alert.id) ? ('alert-opened' as const) : ('alert-updated' as const),
-        at,
-        lineId,
-        alert,
-      })),
-    ]);
-    return { created: true, check, signals, alerts };
+    this.publish(outcome.messages);
+    return { created: true, check: outcome.check, signals: outcome.signalViews, alerts: outcome.alertViews };
   }
 
   private replay(existing: StoredCheck, lineId: number): CheckResult {
@@ -560,21 +572,22 @@ export class Monitor {
         before: before ? { runId: before.id, productId: before.productId } : null,
         after: { runId: started.id, productId },
       });
-      return started;
+      const messages = this.record(now, [
+        ...touched.map((a) => ({ type: 'alert-updated' as const, lineId, alert: alertView(a, this.repos.alerts.signalsOf(a.id)) })),
+        { type: 'line-status', lineId, reason: 'changeover' },
+      ]);
+      return { started, messages };
     }).immediate();
     this.reloadLine(lineId);
-    const at = new Date(now).toISOString();
-    this.publish([
-      ...touched.map((a) => ({ type: 'alert-updated' as const, at, lineId, alert: alertView(a, this.repos.alerts.signalsOf(a.id)) })),
-      { type: 'line-status', at, lineId, reason: 'changeover' },
-    ]);
-    return run;
+    this.publish(run.messages);
+    return run.started;
   }
 
   /** New limits were approved for the line's running product: judge from a fresh segment. */
   limitsChanged(lineId: number): void {
     this.reloadLine(lineId);
-    this.publish([{ type: 'line-status', at: new Date(this.clock.now()).toISOString(), lineId, reason: 'limits' }]);
+    const messages = this.db.transaction(() => this.record(this.clock.now(), [{ type: 'line-status', lineId, reason: 'limits' }])).immediate();
+    this.publish(messages);
   }
 
   // ---------------------------------------------------------------- alerts
@@ -595,7 +608,7 @@ export class Monitor {
 
   private transition(alertId: number, actor: string, change: (alert: StoredAlert, now: number) => StoredAlert): AlertView {
     const now = this.clock.now();
-    const next = this.db.transaction(() => {
+    const outcome = this.db.transaction(() => {
       const alert = this.repos.alerts.get(alertId);
       if (!alert) throw notFound(`alert ${alertId}`);
       const updated = change(alert, now);
@@ -618,8 +631,10 @@ export class Monitor {
           now,
         );
       }
-      return updated;
+      const messages = this.record(now, [{ type: 'alert-updated', lineId: updated.lineId, alert: alertView(updated, this.repos.alerts.signalsOf(updated.id)) }]);
+      return { updated, messages };
     }).immediate();
+    const next = outcome.updated;
     const runtime = this.lines.get(next.lineId);
     if (runtime) {
       const key = alertKey(next.kind, next.direction);
@@ -634,9 +649,8 @@ export class Monitor {
         runtime.openAlerts.set(key, next);
       }
     }
-    const view = alertView(next, this.repos.alerts.signalsOf(next.id));
-    this.publish([{ type: 'alert-updated', at: new Date(now).toISOString(), lineId: next.lineId, alert: view }]);
-    return view;
+    this.publish(outcome.messages);
+    return (outcome.messages[0] as Extract<LiveEvent, { alert: AlertView }>).alert;
   }
 
   // ---------------------------------------------------------------- overdue
@@ -649,8 +663,8 @@ export class Monitor {
       const due = this.nextDue(runtime);
       if (due === null || now <= due + this.graceMs) continue;
       if (runtime.openAlerts.has(alertKey('check-overdue', null))) continue;
-      const alert = this.db.transaction(() =>
-        this.repos.alerts.insert({
+      const { alert, messages } = this.db.transaction(() => {
+        const created = this.repos.alerts.insert({
           lineId: runtime.line.id,
           runId: runtime.run?.id ?? null,
           kind: 'check-overdue',
@@ -673,12 +687,12 @@ export class Monitor {
           resolvedAt: null,
           cause: null,
           action: null,
-        }),
-      ).immediate();
+        });
+        return { alert: created, messages: this.record(now, [{ type: 'alert-opened', lineId: runtime.line.id, alert: alertView(created, []) }]) };
+      }).immediate();
       runtime.openAlerts.set(alertKey('check-overdue', null), alert);
-      const view = alertView(alert, []);
-      opened.push(view);
-      this.publish([{ type: 'alert-opened', at: new Date(now).toISOString(), lineId: runtime.line.id, alert: view }]);
+      opened.push(alertView(alert, []));
+      this.publish(messages);
     }
     return opened;
   }

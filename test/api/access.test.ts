@@ -45,6 +45,9 @@ const MATRIX: Record<string, { who: Principal[]; url: string; payload?: object; 
   'POST /api/lines/:lineId/limits/proposal': { who: QUAL, url: '/api/lines/1/limits/proposal', payload: {}, ok: 400 },
   'POST /api/lines/:lineId/limits': { who: QUAL, url: '/api/lines/1/limits', payload: {}, ok: 400 },
   'GET /api/audit': { who: QUAL, url: '/api/audit', ok: 200 },
+  'POST /api/board-session': { who: ANYONE, url: '/api/board-session', payload: {}, ok: 400 },
+  // a plain GET (no upgrade) of the WebSocket route: allowed callers get 404, the rest 401/403
+  'GET /live': { who: BOARD, url: '/live', ok: 404 },
 };
 
 let t: TestApp;
@@ -108,6 +111,17 @@ describe('the access matrix', () => {
     const res = await t.app.inject({ method: 'POST', url: '/api/lines/2/checks', headers: { authorization: `Bearer ${tokens['checks-token']}` }, payload: { weights: [503], clientId: crypto.randomUUID() } });
     expect(res.statusCode).toBe(403);
     expect(res.json().message).toMatch(/only for lines 1/);
+  });
+
+  it('when a wall screen trades its board token for a cookie, then it reads the board but changes nothing', async () => {
+    const res = await t.app.inject({ method: 'POST', url: '/api/board-session', payload: { token: tokens['board-token'] } });
+    expect(res.statusCode).toBe(200);
+    const cookie = String(res.headers['set-cookie']).split(';')[0] as string;
+    expect(cookie).toMatch(/^heft_board=/);
+    expect((await t.app.inject({ method: 'GET', url: '/api/lines', headers: { cookie } })).statusCode).toBe(200);
+    expect((await t.app.inject({ method: 'POST', url: '/api/alerts/1/acknowledge', headers: { cookie }, payload: { note: 'x' } })).statusCode).toBe(403);
+    const wrong = await t.app.inject({ method: 'POST', url: '/api/board-session', payload: { token: tokens['checks-token'] } });
+    expect(wrong.statusCode).toBe(401);
   });
 
   it('when a token is revoked, then it is refused with 401', async () => {

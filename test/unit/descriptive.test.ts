@@ -3,6 +3,7 @@ import { describe, expect, it } from 'vitest';
 import * as ss from 'simple-statistics';
 import { mean, range, sampleSd } from '../../server/stats/descriptive.js';
 import { normalCdf, studentTQuantile, studentTTwoSidedP } from '../../server/stats/distributions.js';
+import { mulberry32 } from '../../server/stats/random.js';
 import { summarizeSample } from '../../server/stats/sample-summary.js';
 
 function strd(name: string): number[] {
@@ -104,8 +105,7 @@ describe('per-check summary', () => {
   });
 
   it('when compared with simple-statistics, then mean and sd agree on random fill weights (property)', () => {
-    let seed = 7;
-    const next = () => ((seed = (seed * 16807) % 2147483647) / 2147483647);
+    const next = mulberry32(7);
     for (let k = 0; k < 200; k += 1) {
       const n = 2 + Math.floor(next() * 40);
       const values = Array.from({ length: n }, () => 500 + (next() - 0.5) * 20);

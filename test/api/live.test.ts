@@ -1,0 +1,194 @@
+import { EventEmitter } from 'node:events';
+import { afterEach, describe, expect, it } from 'vitest';
+import WebSocket from 'ws';
+import { LiveHub } from '../../server/live/hub.js';
+import { createLiveRepository } from '../../server/live/repository.js';
+import { makeTestApp, postCheck, removeDir, setupLine, weightsWithMean, type TestApp } from '../helpers.js';
+
+let t: TestApp | null = null;
+afterEach(async () => {
+  if (t) {
+    await t.close();
+    removeDir(t.dir);
+    t = null;
+  }
+});
+
+async function listen(app: TestApp): Promise<number> {
+  await app.app.listen({ port: 0, host: '127.0.0.1' });
+  return (app.app.server.address() as { port: number }).port;
+}
+
+interface Received {
+  seq: number;
+  type: string;
+}
+
+function connect(port: number, cookie: string, since?: number) {
+  const ws = new WebSocket(`ws://127.0.0.1:${port}/live${since === undefined ? '' : `?since=${since}`}`, { headers: { cookie } });
+  const messages: Received[] = [];
+  ws.on('message', (d) => messages.push(JSON.parse(String(d)) as Received));
+  const opened = new Promise<void>((resolve, reject) => {
+    ws.on('open', () => resolve());
+    ws.on('unexpected-response', (req, res) => {
+      req.destroy();
+      reject(new Error(`status ${res.statusCode}`));
+    });
+    ws.on('error', reject);
+  });
+  return { ws, messages, opened };
+}
+
+const until = async (test: () => boolean, ms = 3000) => {
+  const end = Date.now() + ms;
+  while (!test()) {
+    if (Date.now() > end) throw new Error('timed out waiting');
+    await new Promise((r) => setTimeout(r, 10));
+  }
+};
+
+describe('the live feed', () => {
+  it('when a client resumes, then it first gets everything after its seq, in order, then follows live', async () => {
+    t = await makeTestApp();
+    const { lineId } = await setupLine(t);
+    const port = await listen(t);
+    for (const m of [503, 503.2, 510]) {
+      t.clock.advance(3_600_000);
+      await postCheck(t, lineId, weightsWithMean(m));
+    }
+    const c = connect(port, t.cookies.supervisor);
+    await c.opened;
+    c.ws.send(JSON.stringify({ type: 'resume', since: 1 }));
+    await until(() => c.messages.some((m) => m.type === 'resumed'));
+    t.clock.advance(3_600_000);
+    await postCheck(t, lineId, weightsWithMean(503));
+    await until(() => c.messages.filter((m) => m.type === 'check').length === 4);
+    const numbered = c.messages.filter((m) => !['hello', 'resumed'].includes(m.type)).map((m) => m.seq);
+    const stored = (t.db.prepare('SELECT seq FROM live_messages WHERE seq > 1 ORDER BY seq').all() as { seq: number }[]).map((r) => r.seq);
+    expect(numbered).toEqual(stored);
+    expect(c.messages.map((m) => m.type)).toContain('alert-opened');
+    c.ws.close();
+  });
+
+  it('when the server restarts, then seq keeps increasing', async () => {
+    t = await makeTestApp();
+    const { lineId } = await setupLine(t);
+    await postCheck(t, lineId, weightsWithMean(503));
+    const before = createLiveRepository(t.db).latestSeq();
+    t = await t.restart();
+    t.clock.advance(60_000);
+    await postCheck(t, lineId, weightsWithMean(503));
+    expect(createLiveRepository(t.db).latestSeq()).toBeGreaterThan(before);
+  });
+
+  it('when nobody is signed in, then the upgrade is refused with 401', async () => {
+    t = await makeTestApp();
+    const port = await listen(t);
+    await expect(connect(port, 'heft_session=nonsense').opened).rejects.toThrow(/401/);
+  });
+
+  it('when a client is forced off 100 times during a stream of checks, then after each resume it has every message exactly once, in order', async () => {
+    t = await makeTestApp();
+    const { lineId } = await setupLine(t);
+    const port = await listen(t);
+    const seen: number[] = [];
+    let last = 0;
+    let posted = 0;
+    for (let round = 0; round < 100; round += 1) {
+      const c = connect(port, t.cookies.operator, last);
+      await c.opened;
+      await until(() => c.messages.some((m) => m.type === 'resumed' || m.type === 'resync'));
+      t.clock.advance(60_000);
+      await postCheck(t, lineId, weightsWithMean(503 + (round % 7) * 0.1));
+      posted += 1;
+      await until(() => c.messages.some((m) => m.type === 'check' && m.seq > last));
+      for (const m of c.messages) if (!['hello', 'resumed', 'resync'].includes(m.type)) seen.push(m.seq);
+      last = Math.max(last, ...c.messages.map((m) => m.seq));
+      c.ws.terminate();
+      // and one more check while nobody is connected
+      t.clock.advance(60_000);
+      await postCheck(t, lineId, weightsWithMean(503));
+      posted += 1;
+    }
+    const c = connect(port, t.cookies.operator, last);
+    await c.opened;
+    await until(() => c.messages.some((m) => m.type === 'resumed'));
+    for (const m of c.messages) if (!['hello', 'resumed'].includes(m.type)) seen.push(m.seq);
+    c.ws.close();
+    const stored = (t.db.prepare('SELECT seq FROM live_messages ORDER BY seq').all() as { seq: number }[]).map((r) => r.seq);
+    expect(seen).toEqual(stored);
+    expect(new Set(seen).size).toBe(seen.length);
+    expect(seen.length).toBeGreaterThanOrEqual(posted);
+  }, 60_000);
+});
+
+/** A stand-in socket: records what was sent and lets the test set how much is still unsent. */
+class FakeSocket extends EventEmitter {
+  readonly OPEN = 1;
+  readyState = 1;
+  bufferedAmount = 0;
+  sent: string[] = [];
+  terminated = false;
+  pings = 0;
+  send(text: string) {
+    this.sent.push(text);
+  }
+  ping() {
+    this.pings += 1;
+  }
+  terminate() {
+    this.terminated = true;
+    this.readyState = 3;
+    this.emit('close');
+  }
+  close() {
+    this.terminate();
+  }
+}
+
+describe('the hub’s limits', () => {
+  it('when a client’s send buffer passes the bound, then it is dropped instead of growing the server’s memory', async () => {
+    t = await makeTestApp();
+    const live = createLiveRepository(t.db);
+    const hub = new LiveHub({ live, maxBufferedBytes: 10_000, resumeGraceMs: 0 });
+    const slow = new FakeSocket();
+    const fast = new FakeSocket();
+    hub.attach(slow as unknown as WebSocket, 0);
+    hub.attach(fast as unknown as WebSocket, 0);
+    slow.bufferedAmount = 9_990;
+    const messages = t.db.transaction(() => [live.append({ type: 'check', at: 1, lineId: 1, body: { padding: 'x'.repeat(100) } })])();
+    hub.publish(messages);
+    expect(slow.terminated).toBe(true);
+    expect(fast.terminated).toBe(false);
+    expect(fast.sent.at(-1)).toContain('"padding"');
+    expect(hub.stats.dropped).toBe(1);
+    expect(hub.stats.clients).toBe(1);
+    hub.close();
+  });
+
+  it('when a client stops answering pings, then the heartbeat drops it', async () => {
+    t = await makeTestApp();
+    const hub = new LiveHub({ live: createLiveRepository(t.db), heartbeatMs: 20, resumeGraceMs: 0 });
+    const silent = new FakeSocket();
+    const lively = new FakeSocket();
+    lively.ping = () => {
+      lively.pings += 1;
+      queueMicrotask(() => lively.emit('pong'));
+    };
+    hub.attach(silent as unknown as WebSocket, 0);
+    hub.attach(lively as unknown as WebSocket, 0);
+    await until(() => silent.terminated, 1000);
+    expect(lively.terminated).toBe(false);
+    expect(lively.pings).toBeGreaterThanOrEqual(2);
+    hub.close();
+  });
+
+  it('when a client resumes from beyond what storage holds, then it is told to resync', async () => {
+    t = await makeTestApp();
+    const hub = new LiveHub({ live: createLiveRepository(t.db), resumeGraceMs: 0 });
+    const s = new FakeSocket();
+    hub.attach(s as unknown as WebSocket, 999_999);
+    expect(s.sent.map((x) => JSON.parse(x).type)).toEqual(['hello', 'resync']);
+    hub.close();
+  });
+});
