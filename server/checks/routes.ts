@@ -26,6 +26,14 @@ export const checkBody = z.strictObject({
   confirmSuspect: z.boolean().optional(),
 });
 
+const correctionBody = z.strictObject({
+  weights: checkBody.shape.weights,
+  clientId: checkBody.shape.clientId,
+  reason: freeText(500),
+  basis: checkBody.shape.basis,
+  confirmSuspect: checkBody.shape.confirmSuspect,
+});
+
 export const checksPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fastify, { ctx }) => {
   const app = fastify.withTypeProvider<ZodTypeProvider>();
   const { repos, monitor, clock } = ctx;
@@ -39,6 +47,18 @@ export const checksPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
     async (req, reply) => {
       const actor = requireActor(req);
       const result = monitor.recordCheck(req.params.lineId, req.body, actorName(actor));
+      return reply.code(result.created ? 201 : 200).send({ check: result.check, signals: result.signals, alerts: result.alerts });
+    },
+  );
+
+  app.post(
+    '/api/checks/:checkId/revisions',
+    {
+      config: { roles: ['operator', 'supervisor', 'quality', 'admin'] },
+      schema: { params: z.strictObject({ checkId: idParam }), body: correctionBody },
+    },
+    async (req, reply) => {
+      const result = monitor.correctCheck(req.params.checkId, req.body, actorName(requireActor(req)));
       return reply.code(result.created ? 201 : 200).send({ check: result.check, signals: result.signals, alerts: result.alerts });
     },
   );

@@ -94,7 +94,21 @@ interface LineRuntime {
   lastTakenAt: number | null;
   /** Unresolved alerts of the current run, by kind and direction. */
   openAlerts: Map<string, StoredAlert>;
+  /** The segment as it was before the latest check, so that check can be corrected; null after a reset. */
+  previous: { segment: SegmentState; segmentStartCheckId: number | null } | null;
 }
+
+/** Correcting the line's latest check: new values, and why. */
+export interface CorrectionInput {
+  weights: number[];
+  clientId: string;
+  reason: string;
+  basis?: Basis;
+  confirmSuspect?: boolean;
+}
+
+/** How long after entry a check may still be corrected: about one shift. */
+export const CORRECTION_WINDOW_MS = 12 * 3_600_000;
 
 const alertKey = (kind: AlertKind, direction: Direction | null) => `${kind}|${direction ?? '-'}`;
 
@@ -169,6 +183,7 @@ export class Monitor {
       window: [],
       lastTakenAt: null,
       openAlerts: new Map(),
+      previous: null,
     };
     if (!run || !product) return runtime;
     this.applyLimits(runtime);
@@ -176,6 +191,7 @@ export class Monitor {
     if (stored && stored.runId === run.id && stored.limitsKey === runtime.limitsKey) {
       runtime.segment = stored.segment;
       runtime.segmentStartCheckId = stored.segmentStartCheckId;
+      runtime.previous = stored.previous;
       if (stored.segmentStartCheckId !== null) {
         const recent = this.repos.checks.latestOfRun(run.id, SEGMENT_MEMORY, stored.segmentStartCheckId);
         const first = runtime.segment.count - recent.length;
@@ -245,6 +261,57 @@ export class Monitor {
     if (existing) return this.replay(existing, lineId);
 
     const runtime = this.runtime(lineId);
+    return this.enter(runtime, runtime, input, actor, null);
+  }
+
+  /**
+   * Replaces the line's latest check by a corrected revision (within about a shift of its entry):
+   * both are kept, and the new one is judged from the detectors' state before the old one.
+   */
+  correctCheck(checkId: number, input: CorrectionInput, actor: string): CheckResult {
+    const old = this.repos.checks.get(checkId);
+    if (!old) throw notFound(`check ${checkId}`);
+    const existing = this.repos.checks.getByClientId(input.clientId);
+    if (existing) {
+      if (existing.revisesCheckId !== checkId) throw conflict(`clientId ${input.clientId} was already used for another check`);
+      return this.replay(existing, old.lineId);
+    }
+    if (old.supersededBy !== null) throw conflict(`check ${checkId} was already corrected by check ${old.supersededBy}; correct that one instead`);
+    const runtime = this.runtime(old.lineId);
+    const latest = runtime.window[runtime.window.length - 1];
+    if (runtime.run?.id !== old.runId || latest?.checkId !== old.id) {
+      throw conflict(`only the line's latest check can be corrected; check ${checkId} is not it`);
+    }
+    if (this.clock.now() - old.recordedAt > CORRECTION_WINDOW_MS) {
+      throw conflict(`check ${checkId} was entered more than ${CORRECTION_WINDOW_MS / 3_600_000} hours ago and can no longer be corrected`);
+    }
+    if (runtime.model && !runtime.previous) {
+      throw conflict(`the limits or detectors were reset after check ${checkId}; it can no longer be corrected`);
+    }
+    const base: LineRuntime = {
+      ...runtime,
+      segment: runtime.previous?.segment ?? runtime.segment,
+      segmentStartCheckId: runtime.previous?.segmentStartCheckId ?? runtime.segmentStartCheckId,
+      points: runtime.points.filter((p) => p.checkId !== old.id),
+      window: runtime.window.filter((w) => w.checkId !== old.id),
+    };
+    return this.enter(runtime, base, { ...input, takenAt: old.takenAt, note: old.note }, actor, { old, reason: input.reason });
+  }
+
+  /**
+   * The one path every check takes: validate, compute, judge on `base`, store in one transaction,
+   * then move `target` (the line's runtime) on. For a correction `base` is the state before the
+   * corrected check.
+   */
+  private enter(
+    target: LineRuntime,
+    base: LineRuntime,
+    input: CheckInput,
+    actor: string | null,
+    correction: { old: StoredCheck; reason: string } | null,
+  ): CheckResult {
+    const runtime = base;
+    const lineId = base.line.id;
     const { run, product } = runtime;
     if (!run || !product) throw conflict(`no product is running on line ${runtime.line.code}: change over to a product first`);
 
@@ -299,9 +366,9 @@ export class Monitor {
       basis,
       enteredBy: actor,
       note: input.note ?? null,
-      revision: 1,
-      revisesCheckId: null,
-      revisionReason: null,
+      revision: correction ? correction.old.revision + 1 : 1,
+      revisesCheckId: correction?.old.id ?? null,
+      revisionReason: correction?.reason ?? null,
       n: own.n,
       mean: own.mean,
       sd: own.sd,
@@ -318,8 +385,21 @@ export class Monitor {
       grossWeights: basis === 'gross' ? input.weights.slice() : null,
     };
 
+    const previous = runtime.model ? { segment: runtime.segment, segmentStartCheckId: runtime.segmentStartCheckId } : null;
     const outcome = this.db.transaction(() => {
       const checkId = this.repos.checks.insert(newCheck);
+      if (correction) {
+        if (!this.repos.checks.markSuperseded(correction.old.id, checkId)) throw conflict(`check ${correction.old.id} was corrected meanwhile`);
+        this.repos.audit.record({
+          at: now,
+          actor: actor ?? 'unknown',
+          action: 'check.correct',
+          entity: 'check',
+          entityId: correction.old.id,
+          before: { checkId: correction.old.id, revision: correction.old.revision, weights: correction.old.weights },
+          after: { checkId, revision: newCheck.revision, weights: nets, reason: correction.reason },
+        });
+      }
       const segmentStartCheckId = runtime.segmentStartCheckId ?? checkId;
       const point: SegmentPoint = { checkId, takenAt, mean: own.mean, n: own.n, index: runtime.segment.count };
       const points = runtime.model ? [...runtime.points.slice(-(SEGMENT_MEMORY - 1)), point] : runtime.points;
@@ -343,7 +423,7 @@ export class Monitor {
       }
       if (runtime.model) {
         this.repos.monitorState.save(
-          { lineId, runId: run.id, limitsKey: runtime.limitsKey, segmentStartCheckId, segment: nextSegment },
+          { lineId, runId: run.id, limitsKey: runtime.limitsKey, segmentStartCheckId, segment: nextSegment, previous },
           now,
         );
       }
@@ -363,13 +443,14 @@ export class Monitor {
 
     // committed: only now does memory move on
     if (runtime.model) {
-      runtime.segment = nextSegment;
-      runtime.segmentStartCheckId = outcome.segmentStartCheckId;
-      runtime.points = outcome.points;
+      target.segment = nextSegment;
+      target.segmentStartCheckId = outcome.segmentStartCheckId;
+      target.points = outcome.points;
+      target.previous = previous;
     }
-    runtime.window = [...windowChecks.slice(0, -1), { checkId: outcome.checkId, weights: nets }];
-    runtime.lastTakenAt = Math.max(runtime.lastTakenAt ?? -Infinity, takenAt);
-    runtime.openAlerts = outcome.openAlerts;
+    target.window = [...windowChecks.slice(0, -1), { checkId: outcome.checkId, weights: nets }];
+    target.lastTakenAt = Math.max(target.lastTakenAt ?? -Infinity, takenAt);
+    target.openAlerts = outcome.openAlerts;
 
     this.publish(outcome.messages);
     return { created: true, check: outcome.check, signals: outcome.signalViews, alerts: outcome.alertViews };
@@ -627,7 +708,7 @@ export class Monitor {
       // or they would signal again at once on evidence from before the fix.
       if (updated.state === 'resolved' && updated.kind === 'mean-shift' && runtime?.run?.id === alert.runId && runtime.run && runtime.model) {
         this.repos.monitorState.save(
-          { lineId: alert.lineId, runId: runtime.run.id, limitsKey: runtime.limitsKey, segmentStartCheckId: null, segment: freshSegment() },
+          { lineId: alert.lineId, runId: runtime.run.id, limitsKey: runtime.limitsKey, segmentStartCheckId: null, segment: freshSegment(), previous: null },
           now,
         );
       }
@@ -644,6 +725,7 @@ export class Monitor {
           runtime.segment = freshSegment();
           runtime.segmentStartCheckId = null;
           runtime.points = [];
+          runtime.previous = null;
         }
       } else if (runtime.openAlerts.get(key)?.id === next.id) {
         runtime.openAlerts.set(key, next);

@@ -35,6 +35,7 @@ const MATRIX: Record<string, { who: Principal[]; url: string; payload?: object; 
   'POST /api/products': { who: ADMIN, url: '/api/products', payload: {}, ok: 400 },
   'PATCH /api/products/:productId': { who: ADMIN, url: '/api/products/1', payload: {}, ok: 200 },
   'POST /api/lines/:lineId/checks': { who: [...PEOPLE, 'checks-token'], url: '/api/lines/1/checks', payload: {}, ok: 400 },
+  'POST /api/checks/:checkId/revisions': { who: PEOPLE, url: '/api/checks/1/revisions', payload: {}, ok: 400 },
   'GET /api/lines/:lineId/checks': { who: BOARD, url: '/api/lines/1/checks', ok: 200 },
   'GET /api/lines/:lineId/status': { who: BOARD, url: '/api/lines/1/status', ok: 200 },
   'GET /api/alerts': { who: BOARD, url: '/api/alerts', ok: 200 },
