@@ -29,6 +29,7 @@ import { createLineRepository } from './lines/repository.js';
 import { Monitor, type LiveEvent } from './monitor/monitor.js';
 import { createMonitorStateRepository } from './monitor/state-repository.js';
 import { productsPlugin } from './products/routes.js';
+import { webPlugin } from './web/routes.js';
 import { createProductRepository } from './products/repository.js';
 
 export interface AppOptions {
@@ -117,7 +118,7 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
   await app.register(rateLimit, { global: false });
   installAccess(app, auth);
 
-  await app.register(healthPlugin);
+  await app.register(healthPlugin, { plant: { name: config.plantName, timeZone: config.timeZone } });
   await app.register(authPlugin, { ctx });
   await app.register(linesPlugin, { ctx });
   await app.register(productsPlugin, { ctx });
@@ -126,6 +127,7 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
   await app.register(limitsPlugin, { ctx });
   await app.register(auditPlugin, { ctx });
   await app.register(livePlugin, { ctx, hub });
+  await app.register(webPlugin);
 
   if (options.overdueTimer) {
     let sweeps = 0;

@@ -25,3 +25,20 @@ export function toIso(ms: number | null): string | null;
 export function toIso(ms: number | null): string | null {
   return ms === null ? null : new Date(ms).toISOString();
 }
+
+/** A hand-movable clock that otherwise runs with real time: for tests that drive a real browser. */
+export class FollowingClock extends ManualClock {
+  private offset = 0;
+  constructor() {
+    super(Date.now());
+  }
+  override now(): number {
+    return Date.now() + this.offset;
+  }
+  override set(ms: number): void {
+    this.offset = ms - Date.now();
+  }
+  override advance(ms: number): void {
+    this.offset += ms;
+  }
+}

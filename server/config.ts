@@ -21,6 +21,7 @@ export const OPTIONS = {
   demo: { env: 'HEFT_DEMO', help: 'make the demo database and demo users, and run the simulated operator', schema: flag.default(false) },
   reset: { env: 'HEFT_RESET', help: 'with --demo: make the demo database anew', schema: flag.default(false) },
   simulator: { env: 'HEFT_SIMULATOR', help: 'with --demo: key in a check on each line every ~20 s', schema: flag.default(true) },
+  plantName: { env: 'HEFT_PLANT_NAME', help: "the plant's name, shown on the pages", schema: z.string().min(1).max(100).default('Heft') },
   timeZone: { env: 'HEFT_TIME_ZONE', help: "the plant's time zone (IANA name)", schema: z.string().refine(isTimeZone, 'not a known IANA time zone').default('Europe/London') },
   overdueGraceMinutes: { env: 'HEFT_OVERDUE_GRACE_MINUTES', help: 'minutes past the sampling interval before "check overdue"', schema: z.coerce.number().min(0).max(1440).default(10) },
   busyTimeoutMs: { env: 'HEFT_BUSY_TIMEOUT_MS', help: 'how long a write waits for a locked database before 503', schema: z.coerce.number().int().min(0).max(60000).default(5000) },

@@ -7,6 +7,7 @@ import { systemClock } from './clock.js';
 import { ConfigError, helpText, parseConfig, type Config } from './config.js';
 import { openDatabase } from './db/database.js';
 import { migrate } from './db/migrate.js';
+import { ensureWebBuilt } from './web/build.js';
 import type { LiveEvent } from './monitor/monitor.js';
 
 async function prepareDemo(config: Config): Promise<void> {
@@ -33,7 +34,10 @@ async function main(): Promise<void> {
   try {
     const demo = argv.includes('--demo') || process.env.HEFT_DEMO === '1';
     const explicitDb = argv.some((a) => a === '--db' || a.startsWith('--db=')) || process.env.HEFT_DB !== undefined;
-    config = parseConfig(argv, process.env, demo && !explicitDb ? { db: './data/demo.db' } : {});
+    config = parseConfig(argv, process.env, {
+      ...(demo && !explicitDb ? { db: './data/demo.db' } : {}),
+      ...(demo && process.env.HEFT_PLANT_NAME === undefined ? { plantName: PLANT.name } : {}),
+    });
   } catch (err) {
     if (err instanceof ConfigError) {
       process.stderr.write(`${err.message}\n`);
@@ -42,6 +46,11 @@ async function main(): Promise<void> {
     throw err;
   }
   if (config.demo) await prepareDemo(config);
+  try {
+    if (await ensureWebBuilt((m) => process.stdout.write(`${m}\n`))) process.stdout.write('  pages built\n');
+  } catch (err) {
+    process.stderr.write(`the pages could not be built (${err instanceof Error ? err.message : String(err)}); the API still runs\n`);
+  }
 
   const db = openDatabase(config.db, { busyTimeoutMs: config.busyTimeoutMs });
   migrate(db);

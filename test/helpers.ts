@@ -4,7 +4,7 @@ import { join } from 'node:path';
 import { randomUUID } from 'node:crypto';
 import type { FastifyInstance } from 'fastify';
 import { buildApp } from '../server/app.js';
-import { ManualClock } from '../server/clock.js';
+import { FollowingClock, ManualClock } from '../server/clock.js';
 import { parseConfig, type Config } from '../server/config.js';
 import { openDatabase, type Db } from '../server/db/database.js';
 import { migrate } from '../server/db/migrate.js';
@@ -34,10 +34,10 @@ export interface TestApp {
 }
 
 /** A fresh migrated database in a temp folder, an app on it with a hand-moved clock, one user per role signed in. */
-export async function makeTestApp(options: { start?: number; dir?: string; config?: Partial<Record<keyof Config, unknown>>; users?: boolean } = {}): Promise<TestApp> {
+export async function makeTestApp(options: { start?: number; dir?: string; config?: Partial<Record<keyof Config, unknown>>; users?: boolean; realTime?: boolean } = {}): Promise<TestApp> {
   const dir = options.dir ?? mkdtempSync(join(tmpdir(), 'heft-test-'));
   const file = join(dir, 'heft.db');
-  const clock = new ManualClock(options.start ?? Date.parse('2026-03-02T06:00:00Z'));
+  const clock = options.realTime ? new FollowingClock() : new ManualClock(options.start ?? Date.parse('2026-03-02T06:00:00Z'));
   // sessions outlive the long hand-moved histories of most tests; the session tests set their own limits
   const config = parseConfig([], {}, { db: file, sessionIdleMinutes: 60 * 24 * 365, sessionMaxHours: 24 * 365, ...options.config });
   const db = openDatabase(file);
@@ -68,7 +68,7 @@ export async function makeTestApp(options: { start?: number; dir?: string; confi
     async restart() {
       await app.close();
       db.close();
-      const next = await makeTestApp({ start: clock.now(), dir, config: options.config, users: false });
+      const next = await makeTestApp({ start: clock.now(), dir, config: options.config, users: false, realTime: options.realTime });
       return next;
     },
   };

@@ -1,3 +1,4 @@
+import { existsSync } from 'node:fs';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { buildApp } from '../../server/app.js';
 import { LOCKOUT_AFTER_FAILURES } from '../../server/auth/service.js';
@@ -11,6 +12,7 @@ const SUP: Principal[] = ['supervisor', 'quality', 'admin'];
 const QUAL: Principal[] = ['quality', 'admin'];
 const ADMIN: Principal[] = ['admin'];
 const ANYONE: Principal[] = PRINCIPALS;
+const PAGE = existsSync(new URL('../../dist/web/index.html', import.meta.url)) ? 200 : 503;
 
 /** Every route, who may call it, and the probe request with the status an allowed caller gets. */
 const MATRIX: Record<string, { who: Principal[]; url: string; payload?: object; ok: number }> = {
@@ -49,6 +51,13 @@ const MATRIX: Record<string, { who: Principal[]; url: string; payload?: object; 
   'POST /api/board-session': { who: ANYONE, url: '/api/board-session', payload: {}, ok: 400 },
   // a plain GET (no upgrade) of the WebSocket route: allowed callers get 404, the rest 401/403
   'GET /live': { who: BOARD, url: '/live', ok: 404 },
+  'GET /api/plant': { who: ANYONE, url: '/api/plant', ok: 200 },
+  // the pages themselves are public (built or not); the data they fetch is not
+  'GET /': { who: ANYONE, url: '/', ok: PAGE },
+  'GET /entry': { who: ANYONE, url: '/entry', ok: PAGE },
+  'GET /board': { who: ANYONE, url: '/board', ok: PAGE },
+  'GET /review': { who: ANYONE, url: '/review', ok: PAGE },
+  'GET /assets/*': { who: ANYONE, url: '/assets/none.js', ok: 404 },
 };
 
 let t: TestApp;

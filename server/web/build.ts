@@ -1,0 +1,26 @@
+import { existsSync, readdirSync, statSync } from 'node:fs';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+
+export const WEB_SOURCE = fileURLToPath(new URL('../../web/', import.meta.url));
+export const WEB_DIST = fileURLToPath(new URL('../../dist/web/', import.meta.url));
+const CONFIG = fileURLToPath(new URL('../../vite.config.ts', import.meta.url));
+
+function newest(dir: string): number {
+  let latest = 0;
+  for (const entry of readdirSync(dir, { withFileTypes: true })) {
+    const path = join(dir, entry.name);
+    latest = Math.max(latest, entry.isDirectory() ? newest(path) : statSync(path).mtimeMs);
+  }
+  return latest;
+}
+
+/** Builds the pages with Vite when dist/web is missing or older than web/; returns whether it built. */
+export async function ensureWebBuilt(log: (message: string) => void = () => {}): Promise<boolean> {
+  const marker = join(WEB_DIST, 'index.html');
+  if (existsSync(marker) && statSync(marker).mtimeMs >= newest(WEB_SOURCE)) return false;
+  log('building the pages with Vite…');
+  const { build } = await import('vite');
+  await build({ configFile: CONFIG, logLevel: 'warn' });
+  return true;
+}
