@@ -94,6 +94,7 @@ async function main(): Promise<void> {
       for (const id of lineIds) if (!lines.get(id)) throw new Error(`there is no line ${id}`);
       const { token, record } = auth.createToken({ name: need(values.name, '--name'), kind, lineIds }, by);
       process.stdout.write(`token ${record.id} (${record.kind}, lines ${record.lineIds.join(',') || 'none'}):\n${token}\nIt is shown once; only its hash is kept.\n`);
+      if (kind === 'board') process.stdout.write(`Open this link once on the wall screen's browser: http://<heft-host>:<port>/board?token=${encodeURIComponent(token)}\n`);
     } else if (noun === 'token' && verb === 'revoke') {
       const token = auth.revokeToken(Number(need(values.id, '--id')), by);
       process.stdout.write(`revoked token ${token.id} (${token.name})\n`);

@@ -63,6 +63,7 @@ export interface Line {
   code: string;
   name: string;
   product: Product | null;
+  runStartedAt: string | null;
   status: 'steady' | 'watch' | 'act' | 'idle';
 }
 
