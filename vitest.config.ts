@@ -6,6 +6,8 @@ export default defineConfig({
     testTimeout: 30_000,
     hookTimeout: 30_000,
     pool: 'forks',
+    // the export memory test forces collections to see what is really retained
+    execArgv: ['--expose-gc'],
     reporters: ['default'],
   },
 });

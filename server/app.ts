@@ -29,6 +29,8 @@ import { createLineRepository } from './lines/repository.js';
 import { Monitor, type LiveEvent } from './monitor/monitor.js';
 import { createMonitorStateRepository } from './monitor/state-repository.js';
 import { productsPlugin } from './products/routes.js';
+import { exportsPlugin } from './exports/routes.js';
+import { reviewPlugin } from './review/routes.js';
 import { webPlugin } from './web/routes.js';
 import { createProductRepository } from './products/repository.js';
 
@@ -126,6 +128,8 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
   await app.register(alertsPlugin, { ctx });
   await app.register(limitsPlugin, { ctx });
   await app.register(auditPlugin, { ctx });
+  await app.register(reviewPlugin, { ctx });
+  await app.register(exportsPlugin, { ctx });
   await app.register(livePlugin, { ctx, hub });
   await app.register(webPlugin);
 

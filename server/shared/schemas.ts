@@ -27,3 +27,17 @@ export const rangeQuery = z.strictObject({
   to: isoTime.optional(),
   limit: z.coerce.number().int().min(1).max(10_000).default(500),
 });
+
+/** A calendar day, YYYY-MM-DD, read in the plant's time zone. */
+export const localDate = z.iso.date();
+
+/**
+ * A reporting range: ISO instants (from, to) or plant-local calendar days (fromDate, toDate, both
+ * inclusive). Either pair, not both; neither gives the caller's default.
+ */
+export const reportRange = {
+  from: isoTime.optional(),
+  to: isoTime.optional(),
+  fromDate: localDate.optional(),
+  toDate: localDate.optional(),
+};

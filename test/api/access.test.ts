@@ -48,6 +48,9 @@ const MATRIX: Record<string, { who: Principal[]; url: string; payload?: object; 
   'POST /api/lines/:lineId/limits/proposal': { who: QUAL, url: '/api/lines/1/limits/proposal', payload: {}, ok: 400 },
   'POST /api/lines/:lineId/limits': { who: QUAL, url: '/api/lines/1/limits', payload: {}, ok: 400 },
   'GET /api/audit': { who: QUAL, url: '/api/audit', ok: 200 },
+  'GET /api/review': { who: QUAL, url: '/api/review', ok: 200 },
+  'POST /api/review/compare': { who: QUAL, url: '/api/review/compare', payload: {}, ok: 400 },
+  'GET /api/exports/:file': { who: QUAL, url: '/api/exports/events.csv', ok: 200 },
   'POST /api/board-session': { who: ANYONE, url: '/api/board-session', payload: {}, ok: 400 },
   // a plain GET (no upgrade) of the WebSocket route: allowed callers get 404, the rest 401/403
   'GET /live': { who: BOARD, url: '/live', ok: 404 },

@@ -1,1 +1,285 @@
 import '../shared/base.css';
+import './review.css';
+import { api, ApiError, getPlant, signIn, whoAmI, type Alert, type Line, type Plant } from '../shared/api.js';
+import { meanChart, meanChartData, type ChartPoint } from '../shared/charts.js';
+import { alertTitle, dateTime, el } from '../shared/format.js';
+
+const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as T;
+
+interface Index {
+  value: number;
+  ci95: [number, number];
+}
+interface Capability {
+  refused?: string;
+  lsl?: number;
+  usl?: number | null;
+  within?: { sigma: number; source: string; cp: Index | null; cpk: Index; unavailable: { cp?: string } };
+  overall?: { sigma: number; cp: Index | null; cpk: Index; unavailable: { cp?: string } };
+}
+interface ProductSection {
+  product: { id: number; code: string; name: string; nominal: number; unit: 'g' | 'kg'; target: number; t1: number | null; t2: number | null; costPerKg: number | null };
+  checks: number;
+  packs: number;
+  mean: number | null;
+  sd: number | null;
+  capability: Capability;
+  netQuantity: {
+    packs: number;
+    mean: number;
+    meetsMean: boolean;
+    belowT1: number;
+    shareBelowT1: number;
+    estimatedShareBelowT1: number | null;
+    meetsT1: boolean;
+    meetsT1Estimated: boolean | null;
+    belowT2: number;
+    meetsT2: boolean;
+  } | null;
+  giveaway: { perPack: number | null; percentOfNominal: number | null; packsMade: number | null; hoursRunning: number; cost: number | null };
+  targetAdvice: { sigma: number | null; lowestTarget: number | null; rule: string; savingPerPack: number | null; saving: number | null };
+  points: { checkId: number; at: string; mean: number; n: number; sd: number | null; range: number }[];
+  limits: { centre: number; sigma: number } | null;
+}
+type Event = Alert & { minutesToAcknowledge: number | null; minutesToResolve: number | null };
+interface LineSection {
+  line: { id: number; code: string; name: string };
+  sampling: { checksTaken: number; checksDue: number; kept: boolean };
+  events: Event[];
+  medianMinutesToAcknowledge: number | null;
+  medianMinutesToResolve: number | null;
+  alertLoad: { days: number; shiftAlerts: number; perDay: number; predictedFalseAlarmsPerDay: number; note: string };
+  operators: { name: string; checks: number }[];
+  products: ProductSection[];
+}
+interface Review {
+  from: string;
+  to: string;
+  timeZone: string;
+  lines: LineSection[];
+}
+
+let plant: Plant = { name: 'Heft', timeZone: 'UTC' };
+let allLines: Line[] = [];
+
+const fmt = (v: number | null | undefined, d = 2) => (v === null || v === undefined || !Number.isFinite(v) ? '—' : v.toFixed(d));
+const decimals = (unit: 'g' | 'kg') => (unit === 'kg' ? 4 : 2);
+const minutes = (m: number | null) => (m === null ? '—' : m < 90 ? `${Math.round(m)} min` : `${(m / 60).toFixed(1)} h`);
+const mark = (ok: boolean | null) => (ok === null ? el('span', { class: 'refused' }, 'not judged') : el('span', { class: ok ? 'meets' : 'fails' }, ok ? '✓ meets' : '✕ does not meet'));
+
+function problem(text: string | null): void {
+  $('problem').textContent = text ?? '';
+  $('problem').classList.toggle('hidden', !text);
+}
+
+/** YYYY-MM-DD of an instant in the plant's zone. */
+function localDate(iso: string): string {
+  const p = Object.fromEntries(new Intl.DateTimeFormat('en-GB', { timeZone: plant.timeZone, year: 'numeric', month: '2-digit', day: '2-digit' }).formatToParts(new Date(iso)).map((x) => [x.type, x.value]));
+  return `${p.year}-${p.month}-${p.day}`;
+}
+
+function table(head: string[], rows: (string | Node)[][], numeric: number[] = []): HTMLTableElement {
+  return el(
+    'table',
+    {},
+    el('thead', {}, el('tr', {}, ...head.map((h) => el('th', { scope: 'col' }, h)))),
+    el('tbody', {}, ...rows.map((r) => el('tr', {}, ...r.map((c, i) => el('td', numeric.includes(i) ? { class: 'num' } : {}, c))))),
+  );
+}
+
+function fact(label: string, value: string | Node): HTMLElement {
+  return el('div', { class: 'fact' }, el('div', { class: 'label' }, label), el('div', { class: 'value' }, value));
+}
+
+function indexCell(i: Index | null | undefined, reason?: string): string {
+  if (!i) return reason ? `— (${reason})` : '—';
+  return `${i.value.toFixed(2)} (95 % CI ${i.ci95[0].toFixed(2)}–${i.ci95[1].toFixed(2)})`;
+}
+
+function renderProduct(section: LineSection, p: ProductSection): HTMLElement {
+  const u = p.product.unit;
+  const d = decimals(u);
+  const box = el('div', { class: 'product-report' }, el('h3', {}, `${p.product.code} — ${p.product.name}`));
+  box.append(
+    el(
+      'div',
+      { class: 'facts' },
+      fact('Checks and packs', `${p.checks} checks, ${p.packs} packs`),
+      fact('Mean of all packs', p.mean === null ? '—' : `${p.mean.toFixed(d)} ${u} (target ${p.product.target} ${u})`),
+      fact('Overall sd', p.sd === null ? '—' : `${p.sd.toFixed(d)} ${u}`),
+    ),
+  );
+  if (p.limits && p.points.length > 0) {
+    const chartBox = el('div', { class: 'chart-box' }, el('div', { class: 'muted' }, 'Mean of each check with its limits (±3σ/√n) and zones'));
+    box.append(chartBox);
+    const points: ChartPoint[] = p.points.map((x) => ({ checkId: x.checkId, at: Date.parse(x.at) / 1000, mean: x.mean, n: x.n, sd: x.sd, range: x.range }));
+    const signalled = new Set(section.events.flatMap((e) => e.signals.map((s) => s.checkId ?? -1)));
+    requestAnimationFrame(() => meanChart(chartBox, Math.min(1000, Math.max(480, chartBox.clientWidth - 16)), 220, meanChartData(points, p.limits!.centre, p.limits!.sigma, signalled)));
+  }
+  const cap = p.capability;
+  box.append(el('h4', {}, 'Capability'));
+  if (cap.refused) box.append(el('p', { class: 'refused' }, `Not computed: ${cap.refused}.`));
+  else
+    box.append(
+      table(
+        ['', 'σ', 'Cp / Pp', 'Cpk / Ppk'],
+        [
+          [`Within checks (${cap.within?.source})`, `${fmt(cap.within?.sigma, d)} ${u}`, indexCell(cap.within?.cp, cap.within?.unavailable.cp), indexCell(cap.within?.cpk)],
+          ['Overall (all packs)', `${fmt(cap.overall?.sigma, d)} ${u}`, indexCell(cap.overall?.cp, cap.overall?.unavailable.cp), indexCell(cap.overall?.cpk)],
+        ],
+      ),
+      el('p', { class: 'muted' }, `Against a lower limit of ${cap.lsl} ${u}${cap.usl ? ` and an upper limit of ${cap.usl} ${u}` : ''}. Intervals: chi-square for Cp and Pp, Bissell (1990) for Cpk and Ppk.`),
+    );
+  const nq = p.netQuantity;
+  box.append(el('h4', {}, 'Net quantity (average system)'));
+  if (nq && p.product.t1 !== null && p.product.t2 !== null) {
+    box.append(
+      table(
+        ['Rule', 'Figure', 'Position'],
+        [
+          [`Mean not below the nominal (${p.product.nominal} ${u})`, `${nq.mean.toFixed(d)} ${u}`, mark(nq.meetsMean)],
+          [`Packs below T1 (${p.product.t1} ${u}) within 2.5 %, observed`, `${nq.belowT1} of ${nq.packs} (${(100 * nq.shareBelowT1).toFixed(2)} %)`, mark(nq.meetsT1)],
+          ['… estimated from the fitted normal', nq.estimatedShareBelowT1 === null ? '—' : `${(100 * nq.estimatedShareBelowT1).toFixed(3)} %`, mark(nq.meetsT1Estimated)],
+          [`No pack below T2 (${p.product.t2} ${u})`, `${nq.belowT2}`, mark(nq.meetsT2)],
+        ],
+      ),
+      el('p', { class: 'caution' }, "An aid to the packer's own checks: the authority's reference test and the local regulations prevail."),
+    );
+  } else box.append(el('p', { class: 'muted' }, 'No TNE for this nominal, or no packs.'));
+  const g = p.giveaway;
+  const t = p.targetAdvice;
+  box.append(el('h4', {}, 'Giveaway and target'));
+  box.append(
+    table(
+      ['', 'Per pack', 'Over the range'],
+      [
+        ['Giveaway (mean − nominal)', g.perPack === null ? '—' : `${g.perPack.toFixed(d)} ${u} (${fmt(g.percentOfNominal)} % of nominal)`, g.cost === null ? (g.packsMade === null ? 'set the line’s packs per hour to see the cost' : 'set the product’s cost per kg to see the cost') : `${g.cost.toFixed(2)} (currency of the cost per kg), ${Math.round(g.packsMade ?? 0)} packs in ${g.hoursRunning.toFixed(1)} h`],
+        [`Lowest target the σ of ${fmt(t.sigma, d)} ${u} allows`, t.lowestTarget === null ? '—' : `${t.lowestTarget.toFixed(d)} ${u}`, ''],
+        ['Saving at that target', t.savingPerPack === null ? '—' : `${t.savingPerPack.toFixed(d)} ${u}`, t.saving === null ? '—' : t.saving.toFixed(2)],
+      ],
+    ),
+    el('p', { class: 'muted' }, `Lowest target: ${t.rule}.`),
+  );
+  return box;
+}
+
+function renderLine(s: LineSection): HTMLElement {
+  const box = el('section', { class: 'line-report', 'data-line': String(s.line.id) }, el('h2', {}, `${s.line.code} — ${s.line.name}`));
+  box.append(
+    el(
+      'div',
+      { class: 'facts' },
+      fact('Sampling plan', el('span', {}, `${s.sampling.checksTaken} checks taken of ${s.sampling.checksDue} due `, mark(s.sampling.kept))),
+      fact('Median time to acknowledge', minutes(s.medianMinutesToAcknowledge)),
+      fact('Median time to resolve', minutes(s.medianMinutesToResolve)),
+      fact('Shift alerts per day', `${s.alertLoad.perDay.toFixed(2)} (false alarms expected: ${s.alertLoad.predictedFalseAlarmsPerDay.toFixed(2)})`),
+    ),
+  );
+  box.append(el('h3', {}, `Process-shift events (${s.events.length})`));
+  if (s.events.length === 0) box.append(el('p', { class: 'muted' }, 'None in this range.'));
+  else {
+    const u = s.products[0]?.product.unit ?? 'g';
+    box.append(
+      table(
+        ['Event', 'Rules', 'Estimated start', 'Detected', 'Acknowledged', 'Resolved', 'Size', 'Cause', 'Action', 'Who'],
+        s.events.map((e) => [
+          `${e.severity === 'act' ? '■' : '▲'} ${alertTitle(e.kind, e.direction)}`,
+          e.ruleWords.join(', '),
+          e.changePoint?.at ? dateTime(e.changePoint.at, plant.timeZone) : e.onset.at ? dateTime(e.onset.at, plant.timeZone) : '—',
+          dateTime(e.openedAt, plant.timeZone),
+          e.acknowledged ? `${dateTime(e.acknowledged.at, plant.timeZone)} (${minutes(e.minutesToAcknowledge)})` : '—',
+          e.resolved ? `${dateTime(e.resolved.at, plant.timeZone)} (${minutes(e.minutesToResolve)})` : 'open',
+          e.size ? `${e.size.unit > 0 ? '+' : ''}${e.size.unit.toFixed(decimals(u))} ${u}${e.size.sigma === null ? '' : ` (${e.size.sigma.toFixed(1)}σ)`}` : '—',
+          e.resolved?.cause ?? '',
+          e.resolved?.action ?? '',
+          [e.acknowledged?.by, e.resolved?.by].filter(Boolean).join(' / '),
+        ]),
+      ),
+    );
+  }
+  for (const p of s.products) box.append(renderProduct(s, p));
+  return box;
+}
+
+function rangeQuery(): string {
+  const picked = [...document.querySelectorAll<HTMLInputElement>('#line-picks input:checked')].map((i) => i.value);
+  const lines = picked.length > 0 && picked.length < allLines.length ? `&lineIds=${picked.join(',')}` : '';
+  return `fromDate=${$<HTMLInputElement>('from').value}&toDate=${$<HTMLInputElement>('to').value}${lines}`;
+}
+
+async function show(query: string | null): Promise<void> {
+  problem(null);
+  const { review } = await api<{ review: Review }>('GET', `/api/review${query ? `?${query}` : ''}`);
+  const lastDay = new Date(Date.parse(review.to) - 1).toISOString();
+  $<HTMLInputElement>('from').value = localDate(review.from);
+  $<HTMLInputElement>('to').value = localDate(lastDay);
+  $('report-title').textContent = `${plant.name}: review ${localDate(review.from)} to ${localDate(lastDay)}`;
+  $('report-range').textContent = `Times in ${review.timeZone}. Made ${dateTime(new Date().toISOString(), plant.timeZone)}.`;
+  $('lines').replaceChildren(...review.lines.map(renderLine));
+  // the exports cover every line of the range; a spreadsheet filters by the line column
+  const dates = `fromDate=${$<HTMLInputElement>('from').value}&toDate=${$<HTMLInputElement>('to').value}`;
+  $('export-links').replaceChildren(
+    ...(['events', 'checks', 'packs'] as const).flatMap((kind) => [
+      el('a', { href: `/api/exports/${kind}.csv?${dates}` }, `${kind}.csv`),
+      el('a', { href: `/api/exports/${kind}.json?${dates}` }, `${kind}.json`),
+    ]),
+  );
+}
+
+async function start(): Promise<void> {
+  plant = await getPlant().catch(() => plant);
+  $('plant').textContent = plant.name;
+  const user = await whoAmI().catch(() => null);
+  if (!user || (user.role !== 'quality' && user.role !== 'admin')) {
+    $('signin').classList.remove('hidden');
+    if (user) problem(`${user.displayName} is signed in as ${user.role}; the review needs the quality or admin role.`);
+    return;
+  }
+  $('who').textContent = `${user.displayName} (${user.role})`;
+  allLines = (await api<{ lines: Line[] }>('GET', '/api/lines')).lines;
+  $('line-picks').append(...allLines.map((l) => el('label', {}, el('input', { type: 'checkbox', value: String(l.id), checked: '' }), l.code)));
+  $<HTMLSelectElement>('cmp-line').replaceChildren(...allLines.map((l) => el('option', { value: String(l.id) }, `${l.code} — ${l.name}`)));
+  await show(null);
+}
+
+$<HTMLFormElement>('signin-form').addEventListener('submit', async (e) => {
+  e.preventDefault();
+  try {
+    await signIn($<HTMLInputElement>('si-user').value.trim(), $<HTMLInputElement>('si-secret').value);
+    $('signin').classList.add('hidden');
+    problem(null);
+    await start();
+  } catch (err) {
+    problem(err instanceof ApiError ? (err.body?.message ?? 'Sign-in failed') : 'The server cannot be reached.');
+  }
+});
+
+$<HTMLFormElement>('range-form').addEventListener('submit', (e) => {
+  e.preventDefault();
+  void show(rangeQuery()).catch((err) => problem(err instanceof ApiError ? (err.body?.message ?? err.message) : String(err)));
+});
+$('last-week').addEventListener('click', () => void show(null));
+$('print').addEventListener('click', () => window.print());
+
+/** A datetime-local value is plant-local wall time; the API wants an instant. */
+function localInputToIso(value: string): string {
+  const guess = Date.parse(`${value}:00Z`);
+  const shown = Date.parse(new Date(guess).toLocaleString('sv-SE', { timeZone: plant.timeZone }).replace(' ', 'T') + 'Z');
+  return new Date(guess - (shown - guess)).toISOString();
+}
+
+$<HTMLFormElement>('compare-form').addEventListener('submit', async (e) => {
+  e.preventDefault();
+  const period = (key: 'a' | 'b') => {
+    const ops = $<HTMLInputElement>(`cmp-${key}-ops`).value.split(',').map((s) => s.trim()).filter(Boolean);
+    return { from: localInputToIso($<HTMLInputElement>(`cmp-${key}-from`).value), to: localInputToIso($<HTMLInputElement>(`cmp-${key}-to`).value), ...(ops.length ? { operators: ops } : {}) };
+  };
+  try {
+    const { comparison } = await api<{ comparison: { words: string } }>('POST', '/api/review/compare', { lineId: Number($<HTMLSelectElement>('cmp-line').value), a: period('a'), b: period('b') });
+    $('compare-result').textContent = comparison.words;
+  } catch (err) {
+    $('compare-result').textContent = err instanceof ApiError ? (err.body?.message ?? err.message) : 'The server cannot be reached.';
+  }
+});
+
+void start().catch((err) => problem(err instanceof ApiError ? (err.body?.message ?? err.message) : 'The server cannot be reached.'));
