@@ -26,6 +26,7 @@ import { createLiveRepository } from './live/repository.js';
 import { livePlugin } from './live/routes.js';
 import { linesPlugin } from './lines/routes.js';
 import { createLineRepository } from './lines/repository.js';
+import { GroupCommitter } from './monitor/group-commit.js';
 import { Monitor, type LiveEvent } from './monitor/monitor.js';
 import { createMonitorStateRepository } from './monitor/state-repository.js';
 import { productsPlugin } from './products/routes.js';
@@ -100,7 +101,7 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
     sessionIdleMs: config.sessionIdleMinutes * 60_000,
     sessionMaxMs: config.sessionMaxHours * 3_600_000,
   });
-  const ctx: HeftContext = { db, clock, config, repos, monitor, auth };
+  const ctx: HeftContext = { db, clock, config, repos, monitor, commits: new GroupCommitter(monitor), auth };
   app.decorate('heft', ctx);
   const hub = new LiveHub({ live: repos.live, now: () => clock.now() });
   listeners.push((events) => hub.publish(events));

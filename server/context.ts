@@ -3,6 +3,7 @@ import type { AuthRepository } from './auth/repository.js';
 import type { Clock } from './clock.js';
 import type { Config } from './config.js';
 import type { Db } from './db/database.js';
+import type { GroupCommitter } from './monitor/group-commit.js';
 import type { Monitor, Repositories } from './monitor/monitor.js';
 
 /** Everything a feature plugin may use; built once in app.ts and handed to each plugin. */
@@ -12,5 +13,7 @@ export interface HeftContext {
   config: Config;
   repos: Repositories & { auth: AuthRepository };
   monitor: Monitor;
+  /** Check entry goes through here: one commit for every check of an event-loop turn. */
+  commits: GroupCommitter;
   auth: AuthService;
 }

@@ -36,7 +36,7 @@ const correctionBody = z.strictObject({
 
 export const checksPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fastify, { ctx }) => {
   const app = fastify.withTypeProvider<ZodTypeProvider>();
-  const { repos, monitor, clock } = ctx;
+  const { repos, monitor, clock, commits } = ctx;
 
   app.post(
     '/api/lines/:lineId/checks',
@@ -46,7 +46,7 @@ export const checksPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
     },
     async (req, reply) => {
       const actor = requireActor(req);
-      const result = monitor.recordCheck(req.params.lineId, req.body, actorName(actor));
+      const result = await commits.submit(() => monitor.recordCheck(req.params.lineId, req.body, actorName(actor)));
       return reply.code(result.created ? 201 : 200).send({ check: result.check, signals: result.signals, alerts: result.alerts });
     },
   );
@@ -58,7 +58,8 @@ export const checksPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
       schema: { params: z.strictObject({ checkId: idParam }), body: correctionBody },
     },
     async (req, reply) => {
-      const result = monitor.correctCheck(req.params.checkId, req.body, actorName(requireActor(req)));
+      const actor = actorName(requireActor(req));
+      const result = await commits.submit(() => monitor.correctCheck(req.params.checkId, req.body, actor));
       return reply.code(result.created ? 201 : 200).send({ check: result.check, signals: result.signals, alerts: result.alerts });
     },
   );

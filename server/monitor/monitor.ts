@@ -17,6 +17,13 @@ import type { LiveRepository } from '../live/repository.js';
 import type { MonitorStateRepository } from './state-repository.js';
 import { alertView, checkView, signalView, type AlertView, type CheckView, type SignalView } from './views.js';
 
+/** A batch whose transaction SQLite rolled back on its own; carries the error that caused it. */
+class BatchAborted extends Error {
+  constructor(override readonly cause: unknown) {
+    super('the batch was rolled back');
+  }
+}
+
 /** How many of a segment's latest points stay in memory for the change-point estimate. */
 export const SEGMENT_MEMORY = 500;
 
@@ -149,6 +156,54 @@ export class Monitor {
     this.graceMs = options.overdueGraceMinutes * 60_000;
     this.publish = options.publish;
     this.loadAll();
+  }
+
+  /** While a batch runs: the messages held back until its commit, and the lines it moved. */
+  private batch: { messages: LiveEvent[]; lines: Set<number> } | null = null;
+
+  /** Sends committed messages, or holds them until the batch they belong to has committed. */
+  private emit(messages: LiveEvent[], lineId: number): void {
+    if (this.batch) {
+      this.batch.messages.push(...messages);
+      this.batch.lines.add(lineId);
+    } else {
+      this.publish(messages);
+    }
+  }
+
+  /**
+   * Group commit: runs the jobs in one IMMEDIATE transaction, each in a savepoint of its own (better-
+   * sqlite3 nests transactions that way), so a job that fails rolls back alone and the rest share one
+   * fsync. Messages go out only after the commit; if the commit itself fails, every job fails with
+   * that error and the lines they moved are reloaded from storage, which is the truth.
+   */
+  runBatch<T>(jobs: readonly (() => T)[]): ({ ok: true; value: T } | { ok: false; error: unknown })[] {
+    if (this.batch) throw new Error('batches do not nest');
+    const batch = { messages: [] as LiveEvent[], lines: new Set<number>() };
+    this.batch = batch;
+    let results: ({ ok: true; value: T } | { ok: false; error: unknown })[] = [];
+    try {
+      this.db.transaction(() => {
+        results = jobs.map((job) => {
+          try {
+            return { ok: true as const, value: job() };
+          } catch (error) {
+            // SQLite rolls the whole transaction back by itself on some errors (a full disk, an I/O
+            // error): then the jobs before this one are gone too, and the batch fails as a whole
+            if (!this.db.inTransaction) throw new BatchAborted(error);
+            return { ok: false as const, error };
+          }
+        });
+      }).immediate();
+    } catch (caught) {
+      this.batch = null;
+      const error = caught instanceof BatchAborted ? caught.cause : caught;
+      for (const lineId of batch.lines) this.reloadLine(lineId);
+      return jobs.map(() => ({ ok: false as const, error }));
+    }
+    this.batch = null;
+    this.publish(batch.messages);
+    return results;
   }
 
   /** Numbers and stores live messages; call inside the transaction whose change they report. */
@@ -452,7 +507,7 @@ export class Monitor {
     target.lastTakenAt = Math.max(target.lastTakenAt ?? -Infinity, takenAt);
     target.openAlerts = outcome.openAlerts;
 
-    this.publish(outcome.messages);
+    this.emit(outcome.messages, lineId);
     return { created: true, check: outcome.check, signals: outcome.signalViews, alerts: outcome.alertViews };
   }
 
@@ -660,7 +715,7 @@ export class Monitor {
       return { started, messages };
     }).immediate();
     this.reloadLine(lineId);
-    this.publish(run.messages);
+    this.emit(run.messages, lineId);
     return run.started;
   }
 
@@ -668,7 +723,7 @@ export class Monitor {
   limitsChanged(lineId: number): void {
     this.reloadLine(lineId);
     const messages = this.db.transaction(() => this.record(this.clock.now(), [{ type: 'line-status', lineId, reason: 'limits' }])).immediate();
-    this.publish(messages);
+    this.emit(messages, lineId);
   }
 
   // ---------------------------------------------------------------- alerts
@@ -731,7 +786,7 @@ export class Monitor {
         runtime.openAlerts.set(key, next);
       }
     }
-    this.publish(outcome.messages);
+    this.emit(outcome.messages, next.lineId);
     return (outcome.messages[0] as Extract<LiveEvent, { alert: AlertView }>).alert;
   }
 
@@ -774,7 +829,7 @@ export class Monitor {
       }).immediate();
       runtime.openAlerts.set(alertKey('check-overdue', null), alert);
       opened.push(alertView(alert, []));
-      this.publish(messages);
+      this.emit(messages, runtime.line.id);
     }
     return opened;
   }
