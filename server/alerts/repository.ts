@@ -191,6 +191,9 @@ export function createAlertRepository(db: Db) {
      VALUES (@alertId, @checkId, @rule, @severity, @direction, @at, @sizeUnit, @sizeSigma, @onsetCheckId)`,
   );
   const signalsOf = db.prepare('SELECT * FROM signals WHERE alert_id = ? ORDER BY id');
+  // an alert left open for weeks gathers thousands of signals: views show the latest ones and a count
+  const recentSignalsOf = db.prepare('SELECT * FROM (SELECT * FROM signals WHERE alert_id = ? ORDER BY id DESC LIMIT ?) ORDER BY id');
+  const signalCount = db.prepare('SELECT COUNT(*) AS n FROM signals WHERE alert_id = ?');
   const alertsOfCheck = db.prepare('SELECT DISTINCT alert_id AS id FROM signals WHERE check_id = ? ORDER BY alert_id');
 
   return {
@@ -240,6 +243,12 @@ export function createAlertRepository(db: Db) {
     },
     signalsOf(alertId: number): StoredSignal[] {
       return (signalsOf.all(alertId) as SignalRow[]).map(toSignal);
+    },
+    /** The latest `limit` signals of an alert, oldest first, and how many it has in all. */
+    recentSignalsOf(alertId: number, limit: number): { signals: StoredSignal[]; total: number } {
+      const signals = (recentSignalsOf.all(alertId, limit) as SignalRow[]).map(toSignal);
+      const total = signals.length < limit ? signals.length : (signalCount.get(alertId) as { n: number }).n;
+      return { signals, total };
     },
   };
 }

@@ -5,7 +5,7 @@ import { BOARD_READ, requireActor, SUPERVISOR_UP } from '../auth/access.js';
 import { actorName } from '../auth/service.js';
 import type { HeftContext } from '../context.js';
 import { notFound } from '../errors.js';
-import { alertView } from '../monitor/views.js';
+import { alertViewFrom } from '../monitor/views.js';
 import { freeText, idParam, isoTime } from '../shared/schemas.js';
 
 const alertParams = z.strictObject({ id: idParam });
@@ -29,14 +29,14 @@ export const alertsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
       },
     },
     async (req) => ({
-      alerts: repos.alerts.list(req.query).map((a) => alertView(a, repos.alerts.signalsOf(a.id))),
+      alerts: repos.alerts.list(req.query).map((a) => alertViewFrom(repos.alerts, a)),
     }),
   );
 
   app.get('/api/alerts/:id', { config: { roles: BOARD_READ }, schema: { params: alertParams } }, async (req) => {
     const alert = repos.alerts.get(req.params.id);
     if (!alert) throw notFound(`alert ${req.params.id}`);
-    return { alert: alertView(alert, repos.alerts.signalsOf(alert.id)) };
+    return { alert: alertViewFrom(repos.alerts, alert) };
   });
 
   app.post(

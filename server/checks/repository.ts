@@ -1,3 +1,4 @@
+import type Database from 'better-sqlite3';
 import type { Db } from '../db/database.js';
 import type { Basis } from '../products/repository.js';
 
@@ -124,7 +125,16 @@ export function createCheckRepository(db: Db) {
        @revisesCheckId, @revisionReason, @n, @mean, @sd, @range, @target, @belowT1, @belowT2, @windowChecks, @windowN,
        @windowMean, @windowSd, @limitsVersionId)`,
   );
-  const insertPack = db.prepare('INSERT INTO packs (check_id, position, net, gross) VALUES (?, ?, ?, ?)');
+  // one statement per check's packs, prepared once for each pack count seen
+  const packInserts = new Map<number, Database.Statement>();
+  const insertPacks = (n: number) => {
+    let stmt = packInserts.get(n);
+    if (!stmt) {
+      stmt = db.prepare(`INSERT INTO packs (check_id, position, net, gross) VALUES ${Array.from({ length: n }, () => '(?, ?, ?, ?)').join(', ')}`);
+      packInserts.set(n, stmt);
+    }
+    return stmt;
+  };
   const markSuperseded = db.prepare('UPDATE checks SET superseded_by = @by WHERE id = @id AND superseded_by IS NULL');
   const byId = db.prepare(`${SELECT_CHECK} WHERE c.id = ?`);
   const byClientId = db.prepare(`${SELECT_CHECK} WHERE c.client_id = ?`);
@@ -150,9 +160,7 @@ export function createCheckRepository(db: Db) {
   return {
     insert(check: NewCheck): number {
       const id = Number(insertCheck.run(check).lastInsertRowid);
-      check.weights.forEach((net, i) => {
-        insertPack.run(id, i, net, check.grossWeights?.[i] ?? null);
-      });
+      insertPacks(check.weights.length).run(check.weights.flatMap((net, i) => [id, i, net, check.grossWeights?.[i] ?? null]));
       return id;
     },
     markSuperseded(id: number, by: number): boolean {

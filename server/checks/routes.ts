@@ -7,7 +7,7 @@ import type { HeftContext } from '../context.js';
 import { toIso } from '../clock.js';
 import { notFound } from '../errors.js';
 import { falseAlarmFigure } from '../monitor/false-alarm-cache.js';
-import { alertView, checkView } from '../monitor/views.js';
+import { alertViewFrom, checkView } from '../monitor/views.js';
 import { productView } from '../products/routes.js';
 import { freeText, idParam, isoTime, rangeQuery } from '../shared/schemas.js';
 import { summarizeSample } from '../stats/sample-summary.js';
@@ -107,7 +107,7 @@ export const checksPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
               cusum: set.enabled['cusum-shift'] ? { ...set.cusum, upper: state.segment.cusum.upper, lower: state.segment.cusum.lower } : null,
             }
           : null,
-        openAlerts: state.openAlerts.map((a) => alertView(a, repos.alerts.signalsOf(a.id))),
+        openAlerts: state.openAlerts.map((a) => alertViewFrom(repos.alerts, a)),
         lastCheckAt: toIso(state.lastCheckAt),
         nextCheckDue: toIso(state.nextCheckDue),
         overdue: state.overdue,

@@ -137,7 +137,8 @@ export class LiveHub {
   /** Sends committed messages to every client that has not had them yet. */
   publish(messages: readonly { seq: number }[]): void {
     if (messages.length === 0 || this.clients.size === 0) return;
-    const encoded = messages.map((m) => ({ seq: m.seq, text: JSON.stringify(m) }));
+    // encoded once for every client, not once per client
+    const encoded = messages.map((m) => ({ seq: m.seq, text: Buffer.from(JSON.stringify(m)) }));
     for (const client of this.clients) {
       if (!client.ready) continue;
       for (const m of encoded) {
@@ -148,7 +149,7 @@ export class LiveHub {
     }
   }
 
-  private send(client: Client, text: string): boolean {
+  private send(client: Client, text: string | Buffer): boolean {
     if (client.socket.readyState !== client.socket.OPEN) return false;
     if (client.socket.bufferedAmount + text.length > this.maxBuffered) {
       this.stats.dropped += 1;
@@ -157,7 +158,8 @@ export class LiveHub {
       client.socket.terminate();
       return false;
     }
-    client.socket.send(text);
+    // a Buffer goes out as a text frame all the same: browsers parse it as JSON text
+    client.socket.send(text, { binary: false });
     this.stats.sent += 1;
     return true;
   }

@@ -15,7 +15,7 @@ import type { Direction, RuleId, Severity } from '../stats/rules.js';
 import { summarizeSample } from '../stats/sample-summary.js';
 import type { LiveRepository } from '../live/repository.js';
 import type { MonitorStateRepository } from './state-repository.js';
-import { alertView, checkView, signalView, type AlertView, type CheckView, type SignalView } from './views.js';
+import { alertView, alertViewFrom, checkView, signalView, type AlertView, type CheckView, type SignalView } from './views.js';
 
 /** A batch whose transaction SQLite rolled back on its own; carries the error that caused it. */
 class BatchAborted extends Error {
@@ -482,9 +482,10 @@ export class Monitor {
           now,
         );
       }
-      const check = checkView(this.repos.checks.get(checkId) as StoredCheck);
+      // the row just written, without reading it back
+      const check = checkView({ ...newCheck, id: checkId, supersededBy: null });
       const signalViews = signals.map(signalView);
-      const alertViews = [...touched.values()].map((a) => alertView(a, this.repos.alerts.signalsOf(a.id)));
+      const alertViews = [...touched.values()].map((a) => alertViewFrom(this.repos.alerts, a));
       const messages = this.record(now, [
         { type: 'check', lineId, check, signals: signalViews },
         ...alertViews.map((alert) => ({
@@ -522,7 +523,7 @@ export class Monitor {
       created: false,
       check: checkView(existing),
       signals: signals.map(signalView),
-      alerts: alerts.map((a) => alertView(a, stored.signalsOf(a.id))),
+      alerts: alerts.map((a) => alertViewFrom(this.repos.alerts, a)),
     };
   }
 
@@ -709,7 +710,7 @@ export class Monitor {
         after: { runId: started.id, productId },
       });
       const messages = this.record(now, [
-        ...touched.map((a) => ({ type: 'alert-updated' as const, lineId, alert: alertView(a, this.repos.alerts.signalsOf(a.id)) })),
+        ...touched.map((a) => ({ type: 'alert-updated' as const, lineId, alert: alertViewFrom(this.repos.alerts, a) })),
         { type: 'line-status', lineId, reason: 'changeover' },
       ]);
       return { started, messages };
@@ -767,7 +768,7 @@ export class Monitor {
           now,
         );
       }
-      const messages = this.record(now, [{ type: 'alert-updated', lineId: updated.lineId, alert: alertView(updated, this.repos.alerts.signalsOf(updated.id)) }]);
+      const messages = this.record(now, [{ type: 'alert-updated', lineId: updated.lineId, alert: alertViewFrom(this.repos.alerts, updated) }]);
       return { updated, messages };
     }).immediate();
     const next = outcome.updated;

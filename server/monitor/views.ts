@@ -1,4 +1,4 @@
-import type { StoredAlert, StoredSignal } from '../alerts/repository.js';
+import type { AlertRepository, StoredAlert, StoredSignal } from '../alerts/repository.js';
 import type { StoredCheck } from '../checks/repository.js';
 import { toIso } from '../clock.js';
 import { inferFromMoments } from '../stats/sample-summary.js';
@@ -79,7 +79,10 @@ export function signalView(s: StoredSignal) {
 
 export type SignalView = ReturnType<typeof signalView>;
 
-export function alertView(a: StoredAlert, signals: readonly StoredSignal[]) {
+/** How many of an alert's signals a view carries (the latest); `signalCount` says how many there are. */
+export const SIGNALS_IN_VIEW = 50;
+
+export function alertView(a: StoredAlert, signals: readonly StoredSignal[], signalCount = signals.length) {
   return {
     id: a.id,
     lineId: a.lineId,
@@ -90,7 +93,8 @@ export function alertView(a: StoredAlert, signals: readonly StoredSignal[]) {
     state: a.state,
     rules: a.rules,
     ruleWords: a.rules.map(ruleWords),
-    signals: signals.map(signalView),
+    signals: signals.slice(-SIGNALS_IN_VIEW).map(signalView),
+    signalCount,
     openedAt: toIso(a.openedAt),
     updatedAt: toIso(a.updatedAt),
     onset: { at: toIso(a.onsetAt), checkId: a.onsetCheckId },
@@ -103,3 +107,9 @@ export function alertView(a: StoredAlert, signals: readonly StoredSignal[]) {
 }
 
 export type AlertView = ReturnType<typeof alertView>;
+
+/** An alert's view with its latest signals read from storage. */
+export function alertViewFrom(alerts: AlertRepository, a: StoredAlert): AlertView {
+  const { signals, total } = alerts.recentSignalsOf(a.id, SIGNALS_IN_VIEW);
+  return alertView(a, signals, total);
+}

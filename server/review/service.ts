@@ -3,7 +3,7 @@ import type { HeftContext } from '../context.js';
 import { DomainError, notFound } from '../errors.js';
 import type { Line } from '../lines/repository.js';
 import { falseAlarmFigure } from '../monitor/false-alarm-cache.js';
-import { alertView } from '../monitor/views.js';
+import { alertViewFrom } from '../monitor/views.js';
 import type { Product } from '../products/repository.js';
 import { capability } from '../stats/capability.js';
 import { estimateSigma, defaultSigmaMethod } from '../stats/control-limits.js';
@@ -137,7 +137,7 @@ export function createReviewService(ctx: HeftContext) {
       predicted += (sections[i]?.checks ?? 0) / figure.arlChecks;
     }
     const events = inRange.map((a) => ({
-      ...alertView(a, repos.alerts.signalsOf(a.id)),
+      ...alertViewFrom(repos.alerts, a),
       minutesToAcknowledge: a.acknowledgedAt === null ? null : (a.acknowledgedAt - a.openedAt) / MINUTE,
       minutesToResolve: a.resolvedAt === null ? null : (a.resolvedAt - a.openedAt) / MINUTE,
     }));

@@ -6,9 +6,17 @@ export function studentTTwoSidedP(t: number, df: number): number {
   return Math.min(1, Math.max(0, p));
 }
 
-/** Upper quantile t_{1−α, df} of Student's t (jstat's inverse of the incomplete beta). */
+const quantiles = new Map<string, number>();
+
+/** Upper quantile t_{1−α, df} of Student's t (jstat's inverse of the incomplete beta), remembered per (p, df): it is iterative and slow. */
 export function studentTQuantile(probability: number, df: number): number {
-  return jStat.studentt.inv(probability, df);
+  const key = `${probability}:${df}`;
+  let q = quantiles.get(key);
+  if (q === undefined) {
+    q = jStat.studentt.inv(probability, df);
+    if (quantiles.size < 100_000) quantiles.set(key, q);
+  }
+  return q;
 }
 
 /** Standard normal cumulative distribution Φ(z) (jstat, via the complementary error function). */

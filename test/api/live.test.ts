@@ -127,10 +127,10 @@ class FakeSocket extends EventEmitter {
   readonly OPEN = 1;
   readyState = 1;
   bufferedAmount = 0;
-  sent: string[] = [];
+  sent: (string | Buffer)[] = [];
   terminated = false;
   pings = 0;
-  send(text: string) {
+  send(text: string | Buffer, _options?: unknown) {
     this.sent.push(text);
   }
   ping() {
@@ -160,7 +160,7 @@ describe('the hub’s limits', () => {
     hub.publish(messages);
     expect(slow.terminated).toBe(true);
     expect(fast.terminated).toBe(false);
-    expect(fast.sent.at(-1)).toContain('"padding"');
+    expect(String(fast.sent.at(-1))).toContain('"padding"');
     expect(hub.stats.dropped).toBe(1);
     expect(hub.stats.clients).toBe(1);
     hub.close();
@@ -188,7 +188,7 @@ describe('the hub’s limits', () => {
     const hub = new LiveHub({ live: createLiveRepository(t.db), resumeGraceMs: 0 });
     const s = new FakeSocket();
     hub.attach(s as unknown as WebSocket, 999_999);
-    expect(s.sent.map((x) => JSON.parse(x).type)).toEqual(['hello', 'resync']);
+    expect(s.sent.map((x) => JSON.parse(String(x)).type)).toEqual(['hello', 'resync']);
     hub.close();
   });
 });

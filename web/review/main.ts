@@ -3,6 +3,7 @@ import './review.css';
 import { api, ApiError, getPlant, signIn, whoAmI, type Alert, type Line, type Plant } from '../shared/api.js';
 import { meanChart, meanChartData, type ChartPoint } from '../shared/charts.js';
 import { alertTitle, dateTime, el } from '../shared/format.js';
+import type { AverageSystemPosition } from '../../server/stats/net-quantity.js';
 
 const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as T;
 
@@ -24,18 +25,7 @@ interface ProductSection {
   mean: number | null;
   sd: number | null;
   capability: Capability;
-  netQuantity: {
-    packs: number;
-    mean: number;
-    meetsMean: boolean;
-    belowT1: number;
-    shareBelowT1: number;
-    estimatedShareBelowT1: number | null;
-    meetsT1: boolean;
-    meetsT1Estimated: boolean | null;
-    belowT2: number;
-    meetsT2: boolean;
-  } | null;
+  netQuantity: AverageSystemPosition | null;
   giveaway: { perPack: number | null; percentOfNominal: number | null; packsMade: number | null; hoursRunning: number; cost: number | null };
   targetAdvice: { sigma: number | null; lowestTarget: number | null; rule: string; savingPerPack: number | null; saving: number | null };
   points: { checkId: number; at: string; mean: number; n: number; sd: number | null; range: number }[];

@@ -115,20 +115,15 @@ export interface Check {
   revisesCheckId: number | null;
 }
 
-export interface ChartLimits {
-  centre: number;
-  lcl: number;
-  ucl: number;
-  zone1: [number, number];
-  zone2: [number, number];
-  sigmaOfMean: number;
-}
+/** The server's own chart-limit shapes, shared by type only (erased from the bundle). */
+export type { MeanChartLimits as ChartLimits, SpreadChartLimits } from '../../server/stats/control-limits.js';
+import type { MeanChartLimits, SpreadChartLimits } from '../../server/stats/control-limits.js';
 
 export interface Status {
   line: { id: number; code: string; name: string };
   state: 'steady' | 'watch' | 'act' | 'idle';
   product: Product | null;
-  limits: { source: string; centre: number; sigma: number; meanChart: ChartLimits; spreadChart: { chart: 'R' | 'S' | 'MR'; centre: number; lcl: number; ucl: number } } | null;
+  limits: { source: string; centre: number; sigma: number; meanChart: MeanChartLimits; spreadChart: SpreadChartLimits } | null;
   openAlerts: Alert[];
   lastCheckAt: string | null;
   nextCheckDue: string | null;
