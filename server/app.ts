@@ -59,6 +59,8 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
     logger: options.logger ?? false,
     bodyLimit: 256 * 1024,
     forceCloseConnections: true,
+    // one line per request drowns what matters on a line-side box; errors and warnings still log
+    disableRequestLogging: true,
     routerOptions: { maxParamLength: 200 },
   });
   app.setValidatorCompiler(validatorCompiler);
