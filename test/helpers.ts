@@ -1,4 +1,5 @@
 import { mkdtempSync, rmSync } from 'node:fs';
+import { afterEach } from 'vitest';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { randomUUID } from 'node:crypto';
@@ -77,6 +78,17 @@ export async function makeTestApp(options: { start?: number; dir?: string; confi
 
 export function removeDir(dir: string): void {
   rmSync(dir, { recursive: true, force: true });
+}
+
+/** After each test, closes the app `current()` gives (if any) and removes its folder. */
+export function closeAfterEach(current: () => TestApp | null, reset: () => void): void {
+  afterEach(async () => {
+    const t = current();
+    if (!t) return;
+    await t.close();
+    removeDir(t.dir);
+    reset();
+  });
 }
 
 export interface LineSetup {

@@ -1,14 +1,13 @@
-import { afterEach, describe, expect, it } from 'vitest';
-import { countRows, makeTestApp, postCheck, removeDir, setupLine, weightsWithMean, type TestApp } from '../helpers.js';
+import { describe, expect, it } from 'vitest';
+import { closeAfterEach, countRows, makeTestApp, postCheck, setupLine, weightsWithMean, type TestApp } from '../helpers.js';
 
 let t: TestApp | null = null;
-afterEach(async () => {
-  if (t) {
-    await t.close();
-    removeDir(t.dir);
+closeAfterEach(
+  () => t,
+  () => {
     t = null;
-  }
-});
+  },
+);
 
 const HOUR = 3_600_000;
 

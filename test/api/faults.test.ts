@@ -1,16 +1,15 @@
 import { spawn } from 'node:child_process';
 import { randomUUID } from 'node:crypto';
-import { afterEach, describe, expect, it } from 'vitest';
-import { countRows, makeTestApp, postCheck, removeDir, setupLine, weightsWithMean, type TestApp } from '../helpers.js';
+import { describe, expect, it } from 'vitest';
+import { closeAfterEach, countRows, makeTestApp, postCheck, setupLine, weightsWithMean, type TestApp } from '../helpers.js';
 
 let t: TestApp | null = null;
-afterEach(async () => {
-  if (t) {
-    await t.close();
-    removeDir(t.dir);
+closeAfterEach(
+  () => t,
+  () => {
     t = null;
-  }
-});
+  },
+);
 
 const tables = ['checks', 'packs', 'signals', 'alerts', 'live_messages', 'line_monitor_state'];
 const snapshot = (app: TestApp) => Object.fromEntries(tables.map((name) => [name, countRows(app.db, name)]));

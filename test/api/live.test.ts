@@ -1,18 +1,17 @@
 import { EventEmitter } from 'node:events';
-import { afterEach, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import WebSocket from 'ws';
 import { LiveHub } from '../../server/live/hub.js';
 import { createLiveRepository } from '../../server/live/repository.js';
-import { makeTestApp, postCheck, removeDir, setupLine, weightsWithMean, type TestApp } from '../helpers.js';
+import { closeAfterEach, makeTestApp, postCheck, setupLine, weightsWithMean, type TestApp } from '../helpers.js';
 
 let t: TestApp | null = null;
-afterEach(async () => {
-  if (t) {
-    await t.close();
-    removeDir(t.dir);
+closeAfterEach(
+  () => t,
+  () => {
     t = null;
-  }
-});
+  },
+);
 
 async function listen(app: TestApp): Promise<number> {
   await app.app.listen({ port: 0, host: '127.0.0.1' });
