@@ -186,6 +186,11 @@ export function createAlertRepository(db: Db) {
          AND opened_at >= @from AND opened_at < @to
        ORDER BY opened_at DESC, id DESC LIMIT @limit) ORDER BY opened_at, id`,
   );
+  const overlapping = db.prepare(
+    `SELECT * FROM alerts WHERE line_id = @lineId AND opened_at < @to
+       AND (opened_at >= @from OR resolved_at IS NULL OR resolved_at > @from)
+     ORDER BY opened_at, id`,
+  );
   const insertSignal = db.prepare(
     `INSERT INTO signals (alert_id, check_id, rule, severity, direction, at, size_unit, size_sigma, onset_check_id)
      VALUES (@alertId, @checkId, @rule, @severity, @direction, @at, @sizeUnit, @sizeSigma, @onsetCheckId)`,
@@ -221,6 +226,10 @@ export function createAlertRepository(db: Db) {
           limit: q.limit,
         }) as AlertRow[]
       ).map(toAlert);
+    },
+    /** The line's alerts that were open at some time in [from, to): opened in it, or still unresolved when it began. */
+    overlapping(lineId: number, from: number, to: number): StoredAlert[] {
+      return (overlapping.all({ lineId, from, to }) as AlertRow[]).map(toAlert);
     },
     insertSignal(s: Omit<StoredSignal, 'id'>): StoredSignal {
       const id = Number(

@@ -121,7 +121,7 @@ export function createReviewService(ctx: HeftContext) {
   }
 
   function lineSection(line: Line, from: number, to: number) {
-    const alerts = repos.alerts.list({ lineId: line.id, from: 0, to, limit: 100_000 }).filter((a) => a.openedAt >= from || a.resolvedAt === null || a.resolvedAt > from);
+    const alerts = repos.alerts.overlapping(line.id, from, to);
     const inRange = alerts.filter((a) => a.openedAt >= from && a.openedAt < to);
     const productIds = repo.productsIn(line.id, from, to);
     const products = productIds.map((id) => repos.products.get(id)).filter((p): p is Product => p !== null);
