@@ -1,5 +1,5 @@
 import { mkdtempSync, rmSync } from 'node:fs';
-import { afterEach } from 'vitest';
+import { afterEach, test } from 'vitest';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { randomUUID } from 'node:crypto';
@@ -90,6 +90,23 @@ export function closeAfterEach(current: () => TestApp | null, reset: () => void)
     reset();
   });
 }
+
+/**
+ * `heftTest`: a vitest test with an app of its own (`heft`), made before the test and closed, with its
+ * folder removed, after it, whether it passed or failed. Tests never share an app.
+ */
+export const heftTest = test.extend<{ heft: TestApp }>({
+  // biome-ignore lint/correctness/noEmptyPattern: vitest reads the fixtures a test wants from this pattern
+  heft: async ({}, use) => {
+    const t = await makeTestApp();
+    try {
+      await use(t);
+    } finally {
+      await t.close();
+      removeDir(t.dir);
+    }
+  },
+});
 
 export interface LineSetup {
   lineId: number;

@@ -18,6 +18,17 @@ interface ExportSpec {
   rows(db: Database.Database, range: Range, timeZone: string): Iterable<Row>;
 }
 
+/** What a spreadsheet would start a formula with when it leads a cell (OWASP, "CSV Injection"). */
+const FORMULA_LEAD = /^[=+\-@\t\r]/;
+
+/**
+ * A text cell as a spreadsheet will only ever show it: one that would start a formula gets a leading
+ * apostrophe (OWASP's advice for CSV injection). Numbers never pass through here, so they stay numbers.
+ */
+export function spreadsheetSafe(text: string): string {
+  return FORMULA_LEAD.test(text) ? `'${text}` : text;
+}
+
 const iso = (ms: number | null) => (ms === null ? null : new Date(ms).toISOString());
 const local = (ms: number | null, tz: string) => (ms === null ? null : localStamp(ms, tz));
 

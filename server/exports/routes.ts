@@ -8,7 +8,7 @@ import { QUALITY_UP } from '../auth/access.js';
 import type { HeftContext } from '../context.js';
 import { resolveRange } from '../review/range.js';
 import { idParam, reportRange } from '../shared/schemas.js';
-import { EXPORTS, type ExportKind } from './columns.js';
+import { EXPORTS, spreadsheetSafe, type ExportKind } from './columns.js';
 
 const FILES = ['events.csv', 'events.json', 'checks.csv', 'checks.json', 'packs.csv', 'packs.json'] as const;
 
@@ -38,7 +38,7 @@ export const exportsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fa
       };
       let stream: Readable;
       if (format === 'csv') {
-        const csv = stringify({ header: true, columns: spec.columns.map((c) => ({ key: c, header: c })), cast: { boolean: (b) => (b ? 'true' : 'false') } });
+        const csv = stringify({ header: true, columns: spec.columns.map((c) => ({ key: c, header: c })), cast: { boolean: (b) => (b ? 'true' : 'false'), string: spreadsheetSafe } });
         stream = Readable.from(rows).pipe(csv);
         reply.type('text/csv; charset=utf-8');
       } else {
