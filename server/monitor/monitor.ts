@@ -7,7 +7,7 @@ import { conflict, DomainError, notFound } from '../errors.js';
 import type { Line, LineRepository, Run } from '../lines/repository.js';
 import type { LimitsRepository } from '../limits/repository.js';
 import type { Basis, Product, ProductRepository } from '../products/repository.js';
-import { stepChangePoint } from '../stats/change-point.js';
+import { directedStepChangePoint } from '../stats/change-point.js';
 import { meanChartLimits, spreadChartLimits, standardisedMean, type ProcessModel } from '../stats/control-limits.js';
 import { freshSegment, judgePoint, type RawSignal, type SegmentState } from '../stats/judge.js';
 import { resolveRuleSet, type RuleSet } from '../stats/rule-set.js';
@@ -610,8 +610,11 @@ export class Monitor {
       const onsetAt = onset?.takenAt ?? takenAt;
       const key = alertKey(p.kind, p.direction);
       let alert = openAlerts.get(key);
-      const changePoint = p.kind === 'mean-shift' && p.direction !== null && runtime.model ? this.changePoint(points, runtime.model) : null;
-      const size = changePoint?.size ?? p.size;
+      // a mean shift's size is measured on its own points (from its change point, or else its onset,
+      // to now), so a shift down is never sized by a shift up still in the segment
+      const meanShift = p.kind === 'mean-shift' && p.direction !== null && runtime.model;
+      const changePoint = meanShift ? this.changePoint(points, runtime.model as ProcessModel, p.direction as Direction) : null;
+      const size = meanShift ? (changePoint?.size ?? this.sizeSince(points, p.onsetIndex, runtime.model as ProcessModel) ?? p.size) : p.size;
       if (!alert) {
         alert = this.repos.alerts.insert({
           lineId: runtime.line.id,
@@ -672,13 +675,22 @@ export class Monitor {
     return { signals, touched, opened };
   }
 
-  /** The most likely start of a step in the mean over the segment in memory (Samuel, Pignatiello & Calvin 1998). */
-  private changePoint(points: readonly SegmentPoint[], model: ProcessModel) {
-    const estimate = stepChangePoint(points, model.centre);
+  /** The most likely start of a step in the mean, on the alert's side of the centre (Samuel, Pignatiello & Calvin 1998). */
+  private changePoint(points: readonly SegmentPoint[], model: ProcessModel, direction: Direction) {
+    const estimate = directedStepChangePoint(points, model.centre, direction);
     if (!estimate) return null;
     const first = points[estimate.firstShiftedIndex] as SegmentPoint;
     const shift = estimate.shiftedMean - model.centre;
     return { at: first.takenAt, checkId: first.checkId, size: { unit: shift, sigma: shift / model.sigma } };
+  }
+
+  /** The packs-weighted mean of the segment's points from `index` on, less the centre. */
+  private sizeSince(points: readonly SegmentPoint[], index: number, model: ProcessModel): ShiftSize | null {
+    const own = points.filter((p) => p.index >= index);
+    const packs = own.reduce((sum, p) => sum + p.n, 0);
+    if (packs === 0) return null;
+    const shift = own.reduce((sum, p) => sum + p.n * p.mean, 0) / packs - model.centre;
+    return { unit: shift, sigma: shift / model.sigma };
   }
 
   // ---------------------------------------------------------------- changeover and limits

@@ -38,3 +38,34 @@ export function stepChangePoint(points: readonly ChangePointInput[], centre: num
   }
   return { firstShiftedIndex: bestIndex, shiftedMean: centre + bestSumDev / bestSumN };
 }
+
+/**
+ * The same maximum-likelihood step estimate with the step's sign known (Samuel, Pignatiello & Calvin
+ * 1998, restricted to a one-sided alternative): τ̂ = argmax_t max(0, ±Σ_{i>t} nᵢ(x̄ᵢ − μ₀))² / Σ_{i>t} nᵢ.
+ * A shift down is never dated by an earlier shift up still in the segment. Null when no stretch lies
+ * on that side of the centre.
+ */
+export function directedStepChangePoint(
+  points: readonly ChangePointInput[],
+  centre: number,
+  direction: 'up' | 'down',
+): ChangePointEstimate | null {
+  const sign = direction === 'up' ? 1 : -1;
+  let best: ChangePointEstimate | null = null;
+  let bestScore = 0;
+  let sumDev = 0;
+  let sumN = 0;
+  for (let t = points.length - 1; t >= 0; t -= 1) {
+    const p = points[t] as ChangePointInput;
+    sumDev += p.n * (p.mean - centre);
+    sumN += p.n;
+    const onSide = sign * sumDev;
+    if (onSide <= 0) continue;
+    const score = (onSide * onSide) / sumN;
+    if (score >= bestScore) {
+      bestScore = score;
+      best = { firstShiftedIndex: t, shiftedMean: centre + sumDev / sumN };
+    }
+  }
+  return best;
+}

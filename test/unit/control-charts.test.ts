@@ -3,7 +3,7 @@ import { describe, expect, it } from 'vitest';
 import { c4, chartConstants } from '../../server/stats/chart-constants.js';
 import { estimateSigma, meanChartLimits, spreadChartLimits } from '../../server/stats/control-limits.js';
 import { normalCdf, logGamma } from '../../server/stats/distributions.js';
-import { stepChangePoint } from '../../server/stats/change-point.js';
+import { directedStepChangePoint, stepChangePoint } from '../../server/stats/change-point.js';
 import { summarizeSample } from '../../server/stats/sample-summary.js';
 
 function csv(name: string): Record<string, number>[] {
@@ -143,5 +143,40 @@ describe('change point of a step in the mean', () => {
     const est = stepChangePoint(means.map((m) => ({ mean: m, n: 5 })), 0);
     expect(est?.firstShiftedIndex).toBe(12);
     expect(est?.shiftedMean).toBeCloseTo(1.5125, 4);
+  });
+
+  it('when the sign of the step is known, then the estimate is the one-sided maximum, found by brute force over every start', () => {
+    // property test on invented data: the one-sided form of the same likelihood (Samuel, Pignatiello & Calvin 1998),
+    // checked against a direct evaluation of max(0, ±Σ nᵢ(x̄ᵢ − μ₀))² / Σ nᵢ for every candidate start
+    let seed = 7;
+    const next = () => ((seed = (seed * 16807) % 2147483647) / 2147483647) * 4 - 2;
+    for (let trial = 0; trial < 200; trial += 1) {
+      const points = Array.from({ length: 1 + (trial % 30) }, (_, i) => ({ mean: next() + (i > 10 ? 1 : 0), n: 1 + (i % 5) }));
+      for (const direction of ['up', 'down'] as const) {
+        const sign = direction === 'up' ? 1 : -1;
+        let best: { t: number; score: number; mean: number } | null = null;
+        for (let t = 0; t < points.length; t += 1) {
+          const tail = points.slice(t);
+          const dev = tail.reduce((a, p) => a + p.n * p.mean, 0);
+          const n = tail.reduce((a, p) => a + p.n, 0);
+          const score = sign * dev > 0 ? (dev * dev) / n : -1;
+          if (score > 0 && (best === null || score > best.score)) best = { t, score, mean: dev / n };
+        }
+        const est = directedStepChangePoint(points, 0, direction);
+        expect(est === null).toBe(best === null);
+        expect(est?.firstShiftedIndex).toBe(best?.t);
+        expect(Math.abs((est?.shiftedMean ?? 0) - (best?.mean ?? 0))).toBeLessThan(1e-12);
+      }
+    }
+  });
+
+  it('when a long step up is followed by one low point, then the step down is dated at that point, not at the step up', () => {
+    const means = [0, 0.1, -0.1, 2, 2.1, 1.9, 2, 2.2, 1.8, 2, -3];
+    const points = means.map((m) => ({ mean: m, n: 5 }));
+    // the two-sided estimate dates the stretch above the centre
+    expect(stepChangePoint(points, 0)?.firstShiftedIndex).toBe(3);
+    const down = directedStepChangePoint(points, 0, 'down');
+    expect(down?.firstShiftedIndex).toBe(10);
+    expect(down?.shiftedMean).toBeCloseTo(-3, 12);
   });
 });
