@@ -3,6 +3,7 @@ import { describe, expect, it } from 'vitest';
 import { c4, chartConstants } from '../../server/stats/chart-constants.js';
 import { estimateSigma, meanChartLimits, spreadChartLimits } from '../../server/stats/control-limits.js';
 import { normalCdf, logGamma } from '../../server/stats/distributions.js';
+import { mulberry32 } from '../../server/stats/random.js';
 import { directedStepChangePoint, stepChangePoint } from '../../server/stats/change-point.js';
 import { summarizeSample } from '../../server/stats/sample-summary.js';
 
@@ -148,8 +149,8 @@ describe('change point of a step in the mean', () => {
   it('when the sign of the step is known, then the estimate is the one-sided maximum, found by brute force over every start', () => {
     // property test on invented data: the one-sided form of the same likelihood (Samuel, Pignatiello & Calvin 1998),
     // checked against a direct evaluation of max(0, ±Σ nᵢ(x̄ᵢ − μ₀))² / Σ nᵢ for every candidate start
-    let seed = 7;
-    const next = () => ((seed = (seed * 16807) % 2147483647) / 2147483647) * 4 - 2;
+    const uniform = mulberry32(7);
+    const next = () => uniform() * 4 - 2;
     for (let trial = 0; trial < 200; trial += 1) {
       const points = Array.from({ length: 1 + (trial % 30) }, (_, i) => ({ mean: next() + (i > 10 ? 1 : 0), n: 1 + (i % 5) }));
       for (const direction of ['up', 'down'] as const) {
