@@ -1,7 +1,7 @@
 import cookie from '@fastify/cookie';
 import helmet from '@fastify/helmet';
 import rateLimit from '@fastify/rate-limit';
-import Fastify, { type FastifyInstance, type FastifyServerOptions } from 'fastify';
+import Fastify, { LogController, type FastifyInstance, type FastifyServerOptions } from 'fastify';
 import { serializerCompiler, validatorCompiler } from 'fastify-type-provider-zod';
 import { installAccess } from './auth/access.js';
 import { authPlugin } from './auth/routes.js';
@@ -60,7 +60,7 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
     bodyLimit: 256 * 1024,
     forceCloseConnections: true,
     // one line per request drowns what matters on a line-side box; errors and warnings still log
-    disableRequestLogging: true,
+    logController: new LogController({ disableRequestLogging: true }),
     routerOptions: { maxParamLength: 200 },
   });
   app.setValidatorCompiler(validatorCompiler);

@@ -15,6 +15,8 @@ const USAGE = `Usage: npm run heft -- <command> [options]
   user passwd --username NAME [--secret S]
   user disable --username NAME
   user list
+  user locks                                  wrong sign-ins per user and device, and the locks in force
+  user unlock [--username NAME] [--address IP]  clear sign-in locks of a user, a device, or both
   token create --name NAME --kind checks|board [--lines 1,2]
   token revoke --id N
   token list
@@ -54,6 +56,7 @@ async function main(): Promise<void> {
       kind: { type: 'string' },
       lines: { type: 'string' },
       id: { type: 'string' },
+      address: { type: 'string' },
       help: { type: 'boolean', short: 'h' },
     },
   });
@@ -84,6 +87,14 @@ async function main(): Promise<void> {
       process.stdout.write(`disabled ${user.username}\n`);
     } else if (noun === 'user' && verb === 'list') {
       for (const u of auth.users()) process.stdout.write(`${u.username}\t${u.role}\t${u.disabled ? 'disabled' : 'active'}\t${u.displayName}\n`);
+    } else if (noun === 'user' && verb === 'locks') {
+      for (const l of auth.signInLocks()) {
+        const who = l.username === '*' ? '(every user)' : l.username;
+        process.stdout.write(`${who}\t${l.address}\t${l.failures} failures\t${l.locked ? `locked until ${new Date(l.lockedUntil as number).toISOString()}` : 'not locked'}\n`);
+      }
+    } else if (noun === 'user' && verb === 'unlock') {
+      const cleared = auth.clearSignInLocks({ username: values.username, address: values.address }, by);
+      process.stdout.write(`cleared ${cleared} failure count${cleared === 1 ? '' : 's'}\n`);
     } else if (noun === 'token' && verb === 'create') {
       const kind = need(values.kind, '--kind');
       if (kind !== 'checks' && kind !== 'board') throw new Error('--kind must be checks or board');

@@ -27,6 +27,7 @@ export const OPTIONS = {
   busyTimeoutMs: { env: 'HEFT_BUSY_TIMEOUT_MS', help: 'how long a write waits for a locked database before 503', schema: z.coerce.number().int().min(0).max(60000).default(5000) },
   sessionIdleMinutes: { env: 'HEFT_SESSION_IDLE_MINUTES', help: 'a session ends after this long unused', schema: z.coerce.number().int().min(1).default(480) },
   sessionMaxHours: { env: 'HEFT_SESSION_MAX_HOURS', help: 'a session ends this long after sign-in', schema: z.coerce.number().int().min(1).default(14) },
+  signInPerMinute: { env: 'HEFT_SIGN_IN_PER_MINUTE', help: 'sign-in requests one client address may make a minute (wrong secrets are slowed down further per user and address)', schema: z.coerce.number().int().min(1).max(100000).default(20) },
   secureCookies: { env: 'HEFT_SECURE_COOKIES', help: 'mark the session cookie Secure (set when served over HTTPS)', schema: flag.default(false) },
   logLevel: { env: 'HEFT_LOG_LEVEL', help: 'fatal, error, warn, info, debug or silent', schema: z.enum(['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent']).default('info') },
 } as const;

@@ -35,6 +35,8 @@ export function installErrorHandler(app: FastifyInstance): void {
       });
     }
     if (err instanceof DomainError) {
+      const retryAfter = err.details?.retryAfterSeconds;
+      if (typeof retryAfter === 'number') reply.header('retry-after', String(retryAfter));
       return reply.code(err.statusCode).send({ error: err.code, message: err.message, issues: err.issues, ...err.details });
     }
     const sqliteCode = typeof err.code === 'string' ? Object.keys(SQLITE_UNAVAILABLE).find((c) => err.code === c || err.code?.startsWith(`${c}_`)) : undefined;

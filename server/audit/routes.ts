@@ -16,7 +16,7 @@ export const auditPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fast
         querystring: z.strictObject({
           from: isoTime.optional(),
           to: isoTime.optional(),
-          entity: z.enum(['line', 'product', 'alert', 'user', 'token', 'check']).optional(),
+          entity: z.enum(['line', 'product', 'alert', 'user', 'token', 'check', 'sign-in']).optional(),
           limit: z.coerce.number().int().min(1).max(5000).default(500),
         }),
       },

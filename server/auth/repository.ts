@@ -90,7 +90,6 @@ export function createAuthRepository(db: Db) {
     'UPDATE users SET display_name = @displayName, role = @role, disabled = @disabled, updated_at = @at WHERE id = @id',
   );
   const setSecret = db.prepare('UPDATE users SET secret_hash = @hash, secret_salt = @salt, failed_attempts = 0, locked_until = NULL, updated_at = @at WHERE id = @id');
-  const setAttempts = db.prepare('UPDATE users SET failed_attempts = @failed, locked_until = @lockedUntil WHERE id = @id');
   const insertSession = db.prepare(
     'INSERT INTO sessions (id_hash, user_id, created_at, last_seen_at) VALUES (@idHash, @userId, @at, @at)',
   );
@@ -133,9 +132,6 @@ export function createAuthRepository(db: Db) {
     },
     setSecret(id: number, secret: UserSecret, at: number): void {
       setSecret.run({ id, ...secret, at });
-    },
-    setAttempts(id: number, failed: number, lockedUntil: number | null): void {
-      setAttempts.run({ id, failed, lockedUntil });
     },
     startSession(idHash: string, userId: number, at: number): void {
       insertSession.run({ idHash, userId, at });

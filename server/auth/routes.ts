@@ -1,7 +1,7 @@
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { ADMIN, BOARD_COOKIE, requireActor, SESSION_COOKIE, SIGNED_IN } from './access.js';
+import { ADMIN, BOARD_COOKIE, requireActor, SESSION_COOKIE, SIGNED_IN, SUPERVISOR_UP } from './access.js';
 import { actorName } from './service.js';
 import type { HeftContext } from '../context.js';
 import { toIso } from '../clock.js';
@@ -13,7 +13,15 @@ import type { MachineToken, User } from './repository.js';
 const username = z.string().trim().min(2).max(40).regex(/^[a-z0-9][a-z0-9._-]*$/i, 'letters, digits, dot, dash, underscore');
 const role = z.enum(ROLES as [Role, ...Role[]]);
 
-const userView = (u: User) => ({ id: u.id, username: u.username, displayName: u.displayName, role: u.role, disabled: u.disabled, locked: u.lockedUntil !== null });
+/** `locked`: wrong sign-ins have locked this user out at one device or more (other devices still work). */
+const userView = (u: User, lockedNames: ReadonlySet<string>) => ({
+  id: u.id,
+  username: u.username,
+  displayName: u.displayName,
+  role: u.role,
+  disabled: u.disabled,
+  locked: lockedNames.has(u.username.toLowerCase()),
+});
 const tokenView = (t: MachineToken) => ({ id: t.id, name: t.name, kind: t.kind, lineIds: t.lineIds, createdBy: t.createdBy, createdAt: toIso(t.createdAt), revokedAt: toIso(t.revokedAt) });
 
 export const authPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fastify, { ctx }) => {
@@ -23,11 +31,11 @@ export const authPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fasti
   app.post(
     '/api/session',
     {
-      config: { roles: ['anyone'], rateLimit: { max: 20, timeWindow: '1 minute' } },
+      config: { roles: ['anyone'], rateLimit: { max: config.signInPerMinute, timeWindow: '1 minute' } },
       schema: { body: z.strictObject({ username: z.string().min(1).max(100), secret: z.string().min(1).max(200) }) },
     },
     async (req, reply) => {
-      const { sessionId, user } = await auth.signIn(req.body.username, req.body.secret);
+      const { sessionId, user } = await auth.signIn(req.body.username, req.body.secret, req.ip);
       reply.setCookie(SESSION_COOKIE, sessionId, {
         httpOnly: true,
         sameSite: 'strict',
@@ -67,14 +75,38 @@ export const authPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fasti
     return reply.code(204).send();
   });
 
-  app.get('/api/users', { config: { roles: ADMIN } }, async () => ({ users: auth.users().map(userView) }));
+  const lockedNames = () => new Set(auth.signInLocks().filter((l) => l.locked).map((l) => l.username));
+
+  app.get('/api/users', { config: { roles: ADMIN } }, async () => {
+    const locked = lockedNames();
+    return { users: auth.users().map((u) => userView(u, locked)) };
+  });
+
+  const lockView = (l: ReturnType<typeof auth.signInLocks>[number]) => ({
+    username: l.username === '*' ? null : l.username,
+    address: l.address,
+    failures: l.failures,
+    lastFailureAt: toIso(l.lastFailureAt),
+    lockedUntil: l.locked ? toIso(l.lockedUntil) : null,
+  });
+
+  app.get('/api/sign-in-locks', { config: { roles: SUPERVISOR_UP } }, async () => ({ locks: auth.signInLocks().map(lockView) }));
+
+  app.post(
+    '/api/sign-in-locks/clear',
+    {
+      config: { roles: SUPERVISOR_UP },
+      schema: { body: z.strictObject({ username: z.string().trim().min(1).max(100).optional(), address: z.string().trim().min(1).max(100).optional() }) },
+    },
+    async (req) => ({ cleared: auth.clearSignInLocks(req.body, actorName(requireActor(req))) }),
+  );
 
   app.post(
     '/api/users',
     { config: { roles: ADMIN }, schema: { body: z.strictObject({ username, displayName: freeText(100), role, secret: z.string().min(1).max(200) }) } },
     async (req, reply) => {
       const user = await auth.addUser(req.body, actorName(requireActor(req)));
-      return reply.code(201).send({ user: userView(user) });
+      return reply.code(201).send({ user: userView(user, lockedNames()) });
     },
   );
 
@@ -92,7 +124,7 @@ export const authPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fasti
       const { secret, ...change } = req.body;
       let user = auth.updateUser(req.params.id, change, by);
       if (secret !== undefined) user = await auth.setSecret(user.username, secret, by);
-      return { user: userView(user) };
+      return { user: userView(user, lockedNames()) };
     },
   );
 

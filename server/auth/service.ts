@@ -3,6 +3,8 @@ import type { Clock } from '../clock.js';
 import type { Db } from '../db/database.js';
 import { badField, conflict, DomainError, notFound } from '../errors.js';
 import type { AuthRepository, MachineToken, TokenKind, User } from './repository.js';
+import { ADDRESS_LOCK_FAILURES, afterFailure, current, EVERY_USER, FORGET_AFTER_MS, gate, PAIR_LOCK_FAILURES } from './throttle.js';
+import { createThrottleRepository, type FailureRow } from './throttle-repository.js';
 import { hashSecret, randomToken, secretProblem, tokenHash, verifySecret, type Role } from './secrets.js';
 
 export type Actor =
@@ -14,10 +16,18 @@ export function actorName(actor: Actor): string {
   return actor.kind === 'user' ? actor.username : `token:${actor.name}`;
 }
 
+/** 423 for a lock, 429 for a wait; both say until when, and Retry-After carries the seconds. */
+function refusal(kind: 'locked' | 'wait', until: number, now: number): DomainError {
+  const seconds = Math.max(1, Math.ceil((until - now) / 1000));
+  const message =
+    kind === 'locked'
+      ? `too many wrong sign-ins from this device: it is locked until ${new Date(until).toISOString()}; another device still works, and a supervisor or admin can clear the lock`
+      : `too many wrong sign-ins from this device: wait ${seconds} s before the next try`;
+  return new DomainError(kind === 'locked' ? 423 : 429, kind === 'locked' ? 'locked' : 'slow-down', message, [], { retryAfterSeconds: seconds });
+}
+
 const withArticle = (role: Role) => (role === 'admin' || role === 'operator' ? `an ${role}` : `a ${role}`);
 
-export const LOCKOUT_AFTER_FAILURES = 5;
-export const LOCKOUT_MINUTES = 15;
 
 export interface AuthServiceOptions {
   db: Db;
@@ -33,37 +43,85 @@ const DUMMY = { hash: 'AAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAA=', salt: 'AAA
 
 export function createAuthService(o: AuthServiceOptions) {
   const { db, clock, repo, audit } = o;
+  const throttle = createThrottleRepository(db);
+
+  /** One more failure for the pair and for the address; a new lock goes into the audit trail. */
+  function countFailure(name: string, address: string, user: User | null, now: number): void {
+    const counts = [
+      { username: name, lockAt: PAIR_LOCK_FAILURES },
+      { username: EVERY_USER, lockAt: ADDRESS_LOCK_FAILURES },
+    ];
+    for (const { username, lockAt } of counts) {
+      const next = afterFailure(current(throttle.get(username, address), now), now, lockAt);
+      throttle.put({ username, address, failures: next.failures, lastFailureAt: next.lastFailureAt, lockedUntil: next.lockedUntil });
+      if (next.newlyLocked) {
+        audit.record({
+          at: now,
+          actor: 'heft',
+          action: username === EVERY_USER ? 'sign-in.lock-address' : 'sign-in.lock',
+          entity: 'sign-in',
+          entityId: username === EVERY_USER ? address : name,
+          after: { username: username === EVERY_USER ? null : name, userId: username === EVERY_USER ? null : (user?.id ?? null), address, failures: next.failures, lockedUntil: new Date(next.lockedUntil as number).toISOString() },
+        });
+      }
+    }
+  }
 
   return {
-    /** Checks a username and secret; counts failures and locks the user out after too many. */
-    async signIn(username: string, secret: string): Promise<{ sessionId: string; user: User }> {
+    /**
+     * Checks a username and secret from a client address. Wrong secrets slow that address down for
+     * that username and then lock the pair; many wrong secrets from one address lock the address.
+     * The same user from another address is never held up (throttle.ts has the figures).
+     */
+    async signIn(username: string, secret: string, address: string): Promise<{ sessionId: string; user: User }> {
+      const name = username.trim().toLowerCase();
+      const before = clock.now();
+      const held = gate(current(throttle.get(name, address), before), current(throttle.get(EVERY_USER, address), before), before);
+      if (!held.open) throw refusal(held.kind, held.until, before);
       const found = repo.userWithSecret(username);
       const ok = await verifySecret(secret, found?.secret.hash ?? DUMMY.hash, found?.secret.salt ?? DUMMY.salt);
       const now = clock.now();
-      if (!found || found.user.disabled) throw new DomainError(401, 'unauthorized', 'unknown user or wrong PIN or password');
-      const { user } = found;
-      if (user.lockedUntil !== null && user.lockedUntil > now) {
-        throw new DomainError(423, 'locked', `too many failed sign-ins: ${user.username} is locked until ${new Date(user.lockedUntil).toISOString()}; an admin can unlock by setting a new secret`);
-      }
-      if (!ok) {
-        const failures = (user.lockedUntil !== null ? 0 : user.failedAttempts) + 1;
-        db.transaction(() => {
-          if (failures >= LOCKOUT_AFTER_FAILURES) {
-            const until = now + LOCKOUT_MINUTES * 60_000;
-            repo.setAttempts(user.id, 0, until);
-            audit.record({ at: now, actor: 'heft', action: 'user.locked', entity: 'user', entityId: user.id, after: { username: user.username, failures, lockedUntil: new Date(until).toISOString() } });
-          } else {
-            repo.setAttempts(user.id, failures, null);
-          }
-        }).immediate();
+      if (!ok || !found || found.user.disabled) {
+        db.transaction(() => countFailure(name, address, found?.user ?? null, now)).immediate();
         throw new DomainError(401, 'unauthorized', 'unknown user or wrong PIN or password');
       }
+      const { user } = found;
       const sessionId = randomToken();
       db.transaction(() => {
-        repo.setAttempts(user.id, 0, null);
+        throttle.remove(name, address);
         repo.startSession(tokenHash(sessionId), user.id, now);
       }).immediate();
       return { sessionId, user };
+    },
+
+    /** Failure counts with a failure in the last day or a lock in force: what a supervisor can clear. */
+    signInLocks(): (FailureRow & { locked: boolean })[] {
+      const now = clock.now();
+      return throttle.recent(now - FORGET_AFTER_MS, now).map((r) => ({ ...r, locked: r.lockedUntil !== null && r.lockedUntil > now }));
+    },
+
+    /** Clears the failure counts (and so the locks) of a username, an address, or a username at an address. */
+    clearSignInLocks(target: { username?: string; address?: string }, by: string): number {
+      const name = target.username?.trim().toLowerCase() ?? null;
+      const address = target.address ?? null;
+      if (name === null && address === null) throw badField('username', 'name a username, an address, or both');
+      const now = clock.now();
+      return db.transaction(() => {
+        const cleared = throttle.matching(name, address);
+        // an address's count over every username goes with the address, not with one username
+        if (name !== null && address === null) cleared.push(...throttle.matching(EVERY_USER, null).filter((r) => cleared.some((c) => c.address === r.address)));
+        for (const row of cleared) throttle.remove(row.username, row.address);
+        audit.record({
+          at: now,
+          actor: by,
+          action: 'sign-in.clear',
+          entity: 'sign-in',
+          entityId: name ?? address,
+          before: cleared.map((r) => ({ username: r.username, address: r.address, failures: r.failures, lockedUntil: r.lockedUntil === null ? null : new Date(r.lockedUntil).toISOString() })),
+          after: null,
+        });
+        return cleared.length;
+      }).immediate();
     },
 
     /** The person behind a session cookie, or null when it is unknown, ended, idle too long or too old. */
@@ -115,6 +173,12 @@ export function createAuthService(o: AuthServiceOptions) {
       db.transaction(() => {
         repo.setSecret(user.id, hashed, now);
         repo.endSessionsOf(user.id, now);
+        // a new secret ends the guessing at the old one: its failure counts go
+        const cleared = throttle.matching(user.username.toLowerCase(), null);
+        if (cleared.length > 0) {
+          throttle.removeMatching(user.username.toLowerCase(), null);
+          audit.record({ at: now, actor: by, action: 'sign-in.clear', entity: 'sign-in', entityId: user.username.toLowerCase(), before: cleared.map((r) => ({ address: r.address, failures: r.failures })), after: { reason: 'new secret' } });
+        }
         audit.record({ at: now, actor: by, action: 'user.secret', entity: 'user', entityId: user.id, after: { username: user.username } });
       }).immediate();
       return repo.user(user.id) as User;
