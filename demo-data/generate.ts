@@ -3,7 +3,7 @@ import { buildApp } from '../server/app.js';
 import { ManualClock } from '../server/clock.js';
 import type { Config } from '../server/config.js';
 import type { Db } from '../server/db/database.js';
-import type { AlertView } from '../server/monitor/views.js';
+import type { AlertSummary } from '../server/monitor/views.js';
 import { mulberry32, normalGenerator } from '../server/stats/random.js';
 import { DEMO_SEED, DEMO_USERS, HISTORY_DAYS, INCIDENTS, LINES, PEOPLE, PRODUCTS, type DemoProduct } from './scenario.js';
 
@@ -116,7 +116,7 @@ export async function generateDemo(options: GenerateOptions): Promise<GenerateSu
 
   const supervisorFor = (at: number) => PEOPLE.supervisors[Math.floor(((at - startAt) / HOUR / 12) % 2)] as string;
 
-  const react = (alert: AlertView, at: number, hour: number, lineCode: string) => {
+  const react = (alert: AlertSummary, at: number, hour: number, lineCode: string) => {
     if (alertsSeen.has(alert.id) || alert.kind === 'check-overdue') return;
     alertsSeen.add(alert.id);
     const who = supervisorFor(at);

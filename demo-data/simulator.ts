@@ -1,6 +1,6 @@
 import type { FastifyInstance } from 'fastify';
 import { randomUUID } from 'node:crypto';
-import type { LiveEvent } from '../server/monitor/monitor.js';
+import type { LiveEvent } from '../server/live/messages.js';
 import { mulberry32, normalGenerator } from '../server/stats/random.js';
 import { toScale } from './generate.js';
 

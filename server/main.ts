@@ -8,7 +8,7 @@ import { ConfigError, helpText, parseConfig, type Config } from './config.js';
 import { openDatabase } from './db/database.js';
 import { migrate } from './db/migrate.js';
 import { ensureWebBuilt } from './web/build.js';
-import type { LiveEvent } from './monitor/monitor.js';
+import type { LiveEvent } from './live/messages.js';
 
 async function prepareDemo(config: Config): Promise<void> {
   if (config.reset) {

@@ -10,7 +10,7 @@ import { parseConfig, type Config } from '../server/config.js';
 import { openDatabase, type Db } from '../server/db/database.js';
 import { migrate } from '../server/db/migrate.js';
 import type { Role } from '../server/auth/secrets.js';
-import type { LiveEvent } from '../server/monitor/monitor.js';
+import type { LiveEvent } from '../server/live/messages.js';
 
 export const SECRETS: Record<Role, string> = {
   operator: '1111',
@@ -150,4 +150,9 @@ export function weightsWithMean(mean: number, n = 5, spread = 1): number[] {
 
 export function countRows(db: Db, table: string): number {
   return (db.prepare(`SELECT COUNT(*) AS n FROM ${table}`).get() as { n: number }).n;
+}
+
+/** The rule ids a check's answer reports, over every alert its signals joined. */
+export function rulesOf(answer: { signals: { rules: { rule: string }[] }[] }): string[] {
+  return answer.signals.flatMap((group) => group.rules.map((r) => r.rule));
 }

@@ -45,6 +45,8 @@ export interface StoredAlert {
   resolvedAt: number | null;
   cause: string | null;
   action: string | null;
+  /** How many signals the alert holds; written with the alert, never counted. */
+  signalCount: number;
 }
 
 interface AlertRow {
@@ -72,6 +74,7 @@ interface AlertRow {
   resolved_at: number | null;
   cause: string | null;
   action: string | null;
+  signal_count: number;
 }
 
 interface SignalRow {
@@ -111,6 +114,7 @@ const toAlert = (r: AlertRow): StoredAlert => ({
   resolvedAt: r.resolved_at,
   cause: r.cause,
   action: r.action,
+  signalCount: r.signal_count,
 });
 
 const toSignal = (r: SignalRow): StoredSignal => ({
@@ -150,6 +154,7 @@ function alertParams(a: Omit<StoredAlert, 'id'>) {
     resolvedAt: a.resolvedAt,
     cause: a.cause,
     action: a.action,
+    signalCount: a.signalCount,
   };
 }
 
@@ -165,17 +170,17 @@ export function createAlertRepository(db: Db) {
   const insert = db.prepare(
     `INSERT INTO alerts (line_id, run_id, kind, direction, severity, state, rules, opened_at, onset_at, onset_check_id,
        change_point_at, change_point_check_id, size_unit, size_sigma, latest_check_id, updated_at, acknowledged_by,
-       acknowledged_at, acknowledge_note, resolved_by, resolved_at, cause, action)
+       acknowledged_at, acknowledge_note, resolved_by, resolved_at, cause, action, signal_count)
      VALUES (@lineId, @runId, @kind, @direction, @severity, @state, @rules, @openedAt, @onsetAt, @onsetCheckId,
        @changePointAt, @changePointCheckId, @sizeUnit, @sizeSigma, @latestCheckId, @updatedAt, @acknowledgedBy,
-       @acknowledgedAt, @acknowledgeNote, @resolvedBy, @resolvedAt, @cause, @action)`,
+       @acknowledgedAt, @acknowledgeNote, @resolvedBy, @resolvedAt, @cause, @action, @signalCount)`,
   );
   const update = db.prepare(
     `UPDATE alerts SET severity = @severity, state = @state, rules = @rules, onset_at = @onsetAt,
        onset_check_id = @onsetCheckId, change_point_at = @changePointAt, change_point_check_id = @changePointCheckId,
        size_unit = @sizeUnit, size_sigma = @sizeSigma, latest_check_id = @latestCheckId, updated_at = @updatedAt,
        acknowledged_by = @acknowledgedBy, acknowledged_at = @acknowledgedAt, acknowledge_note = @acknowledgeNote,
-       resolved_by = @resolvedBy, resolved_at = @resolvedAt, cause = @cause, action = @action
+       resolved_by = @resolvedBy, resolved_at = @resolvedAt, cause = @cause, action = @action, signal_count = @signalCount
      WHERE id = @id`,
   );
   const byId = db.prepare('SELECT * FROM alerts WHERE id = ?');
@@ -196,9 +201,9 @@ export function createAlertRepository(db: Db) {
      VALUES (@alertId, @checkId, @rule, @severity, @direction, @at, @sizeUnit, @sizeSigma, @onsetCheckId)`,
   );
   const signalsOf = db.prepare('SELECT * FROM signals WHERE alert_id = ? ORDER BY id');
-  // an alert left open for weeks gathers thousands of signals: views show the latest ones and a count
-  const recentSignalsOf = db.prepare('SELECT * FROM (SELECT * FROM signals WHERE alert_id = ? ORDER BY id DESC LIMIT ?) ORDER BY id');
-  const signalCount = db.prepare('SELECT COUNT(*) AS n FROM signals WHERE alert_id = ?');
+  // an alert left open for weeks gathers thousands of signals: they are read a page at a time
+  const signalPage = db.prepare('SELECT * FROM (SELECT * FROM signals WHERE alert_id = @alertId AND id < @before ORDER BY id DESC LIMIT @limit) ORDER BY id');
+  const signalsOfCheck = db.prepare('SELECT * FROM signals WHERE check_id = ? ORDER BY id');
   const alertsOfCheck = db.prepare('SELECT DISTINCT alert_id AS id FROM signals WHERE check_id = ? ORDER BY alert_id');
 
   return {
@@ -253,11 +258,13 @@ export function createAlertRepository(db: Db) {
     signalsOf(alertId: number): StoredSignal[] {
       return (signalsOf.all(alertId) as SignalRow[]).map(toSignal);
     },
-    /** The latest `limit` signals of an alert, oldest first, and how many it has in all. */
-    recentSignalsOf(alertId: number, limit: number): { signals: StoredSignal[]; total: number } {
-      const signals = (recentSignalsOf.all(alertId, limit) as SignalRow[]).map(toSignal);
-      const total = signals.length < limit ? signals.length : (signalCount.get(alertId) as { n: number }).n;
-      return { signals, total };
+    /** Up to `limit` of an alert's signals older than signal `before` (all when null), oldest first. */
+    signalPage(alertId: number, before: number | null, limit: number): StoredSignal[] {
+      return (signalPage.all({ alertId, before: before ?? Number.MAX_SAFE_INTEGER, limit }) as SignalRow[]).map(toSignal);
+    },
+    /** The signals one check raised, over every alert. */
+    signalsOfCheck(checkId: number): StoredSignal[] {
+      return (signalsOfCheck.all(checkId) as SignalRow[]).map(toSignal);
     },
   };
 }

@@ -5,7 +5,7 @@ import { BOARD_READ, requireActor, SUPERVISOR_UP } from '../auth/access.js';
 import { actorName } from '../auth/service.js';
 import type { HeftContext } from '../context.js';
 import { notFound } from '../errors.js';
-import { alertViewFrom } from '../monitor/views.js';
+import { alertView, alertViewFrom, SIGNALS_IN_VIEW } from '../monitor/views.js';
 import { freeText, idParam, isoTime } from '../shared/schemas.js';
 
 const alertParams = z.strictObject({ id: idParam });
@@ -33,11 +33,25 @@ export const alertsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
     }),
   );
 
-  app.get('/api/alerts/:id', { config: { roles: BOARD_READ }, schema: { params: alertParams } }, async (req) => {
-    const alert = repos.alerts.get(req.params.id);
-    if (!alert) throw notFound(`alert ${req.params.id}`);
-    return { alert: alertViewFrom(repos.alerts, alert) };
-  });
+  // the alert in full with a page of its signals, newest page first: ?before=<signalId> pages back
+  app.get(
+    '/api/alerts/:id',
+    {
+      config: { roles: BOARD_READ },
+      schema: {
+        params: alertParams,
+        querystring: z.strictObject({ before: idParam.optional(), limit: z.coerce.number().int().min(1).max(1000).default(SIGNALS_IN_VIEW) }),
+      },
+    },
+    async (req) => {
+      const alert = repos.alerts.get(req.params.id);
+      if (!alert) throw notFound(`alert ${req.params.id}`);
+      const page = repos.alerts.signalPage(alert.id, req.query.before ?? null, req.query.limit);
+      const oldest = page[0];
+      const more = oldest !== undefined && repos.alerts.signalPage(alert.id, oldest.id, 1).length > 0;
+      return { alert: alertView(alert, page), nextBefore: more ? (oldest?.id ?? null) : null };
+    },
+  );
 
   app.post(
     '/api/alerts/:id/acknowledge',

@@ -112,12 +112,13 @@ export const limitsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
             })()
           : { centre: body.centre, sigma: body.sigma, method: 'standard', baselineFrom: null, baselineTo: null, baselineChecks: null };
       const now = clock.now();
-      const version = db.transaction(() => {
+      // the version, its audit row and its live message commit together
+      const { version, changed } = db.transaction(() => {
         const v = repos.limits.insert({ lineId: req.params.lineId, productId: state.product!.id, ...fields, approvedBy: actor, approvedAt: now, note: body.note ?? null });
         repos.audit.record({ at: now, actor, action: 'limits.approve', entity: 'line', entityId: req.params.lineId, after: versionView(v) });
-        return v;
+        return { version: v, changed: monitor.limitsChanged(req.params.lineId) };
       }).immediate();
-      monitor.limitsChanged(req.params.lineId);
+      changed.afterCommit();
       return reply.code(201).send({ limits: versionView(version) });
     },
   );

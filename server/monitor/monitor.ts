@@ -1,21 +1,24 @@
-import type { AlertKind, AlertRepository, ShiftSize, StoredAlert, StoredSignal } from '../alerts/repository.js';
+import type { AlertRepository, StoredAlert } from '../alerts/repository.js';
 import type { AuditRepository } from '../audit/repository.js';
-import type { CheckRepository, NewCheck, StoredCheck } from '../checks/repository.js';
+import type { CheckRepository, StoredCheck } from '../checks/repository.js';
 import type { Clock } from '../clock.js';
 import type { Db } from '../db/database.js';
-import { conflict, DomainError, notFound } from '../errors.js';
-import type { Line, LineRepository, Run } from '../lines/repository.js';
+import { conflict, notFound } from '../errors.js';
+import type { LineRepository, Run } from '../lines/repository.js';
 import type { LimitsRepository } from '../limits/repository.js';
-import type { Basis, Product, ProductRepository } from '../products/repository.js';
-import { directedStepChangePoint } from '../stats/change-point.js';
-import { meanChartLimits, spreadChartLimits, standardisedMean, type ProcessModel } from '../stats/control-limits.js';
-import { freshSegment, judgePoint, type RawSignal, type SegmentState } from '../stats/judge.js';
-import { resolveRuleSet, type RuleSet } from '../stats/rule-set.js';
-import type { Direction, RuleId, Severity } from '../stats/rules.js';
-import { summarizeSample } from '../stats/sample-summary.js';
+import type { LiveEvent, LiveEventBody } from '../live/messages.js';
 import type { LiveRepository } from '../live/repository.js';
+import type { Basis, ProductRepository } from '../products/repository.js';
+import { meanChartLimits, spreadChartLimits } from '../stats/control-limits.js';
+import { freshSegment } from '../stats/judge.js';
+import { AlertsService } from './alerts-service.js';
+import { checkStep, type CheckInput, type CheckStep } from './check-step.js';
+import { alertKey, LineRuntimes, SEGMENT_MEMORY, type LineRuntime, type SegmentPoint } from './line-runtime.js';
 import type { MonitorStateRepository } from './state-repository.js';
-import { alertView, alertViewFrom, checkView, signalView, type AlertView, type CheckView, type SignalView } from './views.js';
+import { alertSummary, alertView, alertViewFrom, checkSignalView, checkView, type AlertSummary, type AlertView, type CheckSignalView, type CheckView } from './views.js';
+
+export type { CheckInput } from './check-step.js';
+export { SEGMENT_MEMORY } from './line-runtime.js';
 
 /** A batch whose transaction SQLite rolled back on its own; carries the error that caused it. */
 class BatchAborted extends Error {
@@ -23,9 +26,6 @@ class BatchAborted extends Error {
     super('the batch was rolled back');
   }
 }
-
-/** How many of a segment's latest points stay in memory for the change-point estimate. */
-export const SEGMENT_MEMORY = 500;
 
 export interface Repositories {
   lines: LineRepository;
@@ -38,15 +38,6 @@ export interface Repositories {
   live: LiveRepository;
 }
 
-/** A live message before it is numbered. */
-export type LiveEventBody =
-  | { type: 'check'; lineId: number; check: CheckView; signals: SignalView[] }
-  | { type: 'alert-opened' | 'alert-updated'; lineId: number; alert: AlertView }
-  | { type: 'line-status'; lineId: number; reason: string };
-
-/** A live message as stored and sent: numbered by seq, stamped with its time. */
-export type LiveEvent = LiveEventBody & { seq: number; at: string };
-
 export interface MonitorOptions {
   db: Db;
   clock: Clock;
@@ -56,53 +47,12 @@ export interface MonitorOptions {
   publish: (events: LiveEvent[]) => void;
 }
 
-export interface CheckInput {
-  weights: number[];
-  clientId: string;
-  takenAt?: number;
-  basis?: Basis;
-  note?: string | null;
-  confirmSuspect?: boolean;
-}
-
+/** A check's answer: the check, its own signals, and a summary of each alert it touched. */
 export interface CheckResult {
   created: boolean;
   check: CheckView;
-  signals: SignalView[];
-  alerts: AlertView[];
-}
-
-interface SegmentPoint {
-  checkId: number;
-  takenAt: number;
-  mean: number;
-  n: number;
-  index: number;
-}
-
-interface WindowCheck {
-  checkId: number;
-  weights: number[];
-}
-
-/** What the monitor holds in memory for one line; rebuilt from storage at start. */
-interface LineRuntime {
-  line: Line;
-  run: Run | null;
-  product: Product | null;
-  ruleSet: RuleSet;
-  model: ProcessModel | null;
-  limitsVersionId: number | null;
-  limitsKey: string;
-  segment: SegmentState;
-  segmentStartCheckId: number | null;
-  points: SegmentPoint[];
-  window: WindowCheck[];
-  lastTakenAt: number | null;
-  /** Unresolved alerts of the current run, by kind and direction. */
-  openAlerts: Map<string, StoredAlert>;
-  /** The segment as it was before the latest check, so that check can be corrected; null after a reset. */
-  previous: { segment: SegmentState; segmentStartCheckId: number | null } | null;
+  signals: CheckSignalView[];
+  alerts: AlertSummary[];
 }
 
 /** Correcting the line's latest check: new values, and why. */
@@ -117,37 +67,25 @@ export interface CorrectionInput {
 /** How long after entry a check may still be corrected: about one shift. */
 export const CORRECTION_WINDOW_MS = 12 * 3_600_000;
 
-const alertKey = (kind: AlertKind, direction: Direction | null) => `${kind}|${direction ?? '-'}`;
-
-function kindOf(rule: RuleId): AlertKind {
-  if (rule === 'spread-up') return 'spread-up';
-  if (rule === 'pack-below-t2') return 'pack-below-t2';
-  return 'mean-shift';
-}
-
-const SEVERITY_RANK: Record<Severity, number> = { watch: 1, act: 2 };
-
-interface PendingSignal {
-  rule: RuleId;
-  kind: AlertKind;
-  direction: Direction | null;
-  severity: Severity;
-  onsetIndex: number;
-  size: ShiftSize | null;
-}
+type Correction = { old: StoredCheck; reason: string } | null;
+type JobResult<T> = { ok: true; value: T } | { ok: false; error: unknown };
 
 /**
- * The per-line engine: every check goes through here, is judged on the line's in-memory segment
- * (so its cost does not grow with history), and is stored together with its signals, the alerts
- * they open or join, and the detectors' new state, in one transaction. Messages go out after commit.
+ * The engine's front: every command (a check, a correction, a changeover, an acknowledgement) runs
+ * here in one transaction that stores its change and its live messages; memory moves on and the
+ * messages go out only after the commit. The check step (check-step.ts) decides, the alerts service
+ * writes the episodes, the line runtimes hold each line's state.
  */
 export class Monitor {
-  private readonly lines = new Map<number, LineRuntime>();
   private readonly db: Db;
   private readonly clock: Clock;
   private readonly repos: Repositories;
   private readonly graceMs: number;
   private readonly publish: (events: LiveEvent[]) => void;
+  private readonly lines: LineRuntimes;
+  private readonly alerts: AlertsService;
+  /** While a batch runs: the messages held back until its commit, and the lines it moved. */
+  private batch: { messages: LiveEvent[]; lines: Set<number> } | null = null;
 
   constructor(options: MonitorOptions) {
     this.db = options.db;
@@ -155,11 +93,9 @@ export class Monitor {
     this.repos = options.repos;
     this.graceMs = options.overdueGraceMinutes * 60_000;
     this.publish = options.publish;
-    this.loadAll();
+    this.lines = new LineRuntimes(options.repos);
+    this.alerts = new AlertsService(options.repos.alerts, options.repos.audit);
   }
-
-  /** While a batch runs: the messages held back until its commit, and the lines it moved. */
-  private batch: { messages: LiveEvent[]; lines: Set<number> } | null = null;
 
   /** Sends committed messages, or holds them until the batch they belong to has committed. */
   private emit(messages: LiveEvent[], lineId: number): void {
@@ -177,11 +113,11 @@ export class Monitor {
    * fsync. Messages go out only after the commit; if the commit itself fails, every job fails with
    * that error and the lines they moved are reloaded from storage, which is the truth.
    */
-  runBatch<T>(jobs: readonly (() => T)[]): ({ ok: true; value: T } | { ok: false; error: unknown })[] {
+  runBatch<T>(jobs: readonly (() => T)[]): JobResult<T>[] {
     if (this.batch) throw new Error('batches do not nest');
     const batch = { messages: [] as LiveEvent[], lines: new Set<number>() };
     this.batch = batch;
-    let results: ({ ok: true; value: T } | { ok: false; error: unknown })[] = [];
+    let results: JobResult<T>[] = [];
     try {
       this.db.transaction(() => {
         results = jobs.map((job) => {
@@ -198,7 +134,7 @@ export class Monitor {
     } catch (caught) {
       this.batch = null;
       const error = caught instanceof BatchAborted ? caught.cause : caught;
-      for (const lineId of batch.lines) this.reloadLine(lineId);
+      for (const lineId of batch.lines) this.lines.reload(lineId);
       return jobs.map(() => ({ ok: false as const, error }));
     }
     this.batch = null;
@@ -214,98 +150,13 @@ export class Monitor {
     });
   }
 
-  // ---------------------------------------------------------------- loading
-
-  private loadAll(): void {
-    const unresolved = this.repos.alerts.unresolved();
-    for (const line of this.repos.lines.list()) this.lines.set(line.id, this.loadLine(line, unresolved));
-  }
-
-  private loadLine(line: Line, unresolved: readonly StoredAlert[]): LineRuntime {
-    const run = this.repos.lines.openRun(line.id);
-    const product = run ? this.repos.products.get(run.productId) : null;
-    const runtime: LineRuntime = {
-      line,
-      run,
-      product,
-      ruleSet: resolveRuleSet(product?.rules),
-      model: null,
-      limitsVersionId: null,
-      limitsKey: 'none',
-      segment: freshSegment(),
-      segmentStartCheckId: null,
-      points: [],
-      window: [],
-      lastTakenAt: null,
-      openAlerts: new Map(),
-      previous: null,
-    };
-    if (!run || !product) return runtime;
-    this.applyLimits(runtime);
-    const stored = this.repos.monitorState.get(line.id);
-    if (stored && stored.runId === run.id && stored.limitsKey === runtime.limitsKey) {
-      runtime.segment = stored.segment;
-      runtime.segmentStartCheckId = stored.segmentStartCheckId;
-      runtime.previous = stored.previous;
-      if (stored.segmentStartCheckId !== null) {
-        const recent = this.repos.checks.latestOfRun(run.id, SEGMENT_MEMORY, stored.segmentStartCheckId);
-        const first = runtime.segment.count - recent.length;
-        runtime.points = recent.map((c, i) => ({ checkId: c.id, takenAt: c.takenAt, mean: c.mean, n: c.n, index: first + i }));
-      }
-    }
-    runtime.window = this.repos.checks
-      .latestOfRun(run.id, product.windowSize)
-      .map((c) => ({ checkId: c.id, weights: c.weights }));
-    runtime.lastTakenAt = this.repos.checks.lastTakenAt(run.id);
-    for (const alert of unresolved) {
-      if (alert.lineId === line.id && alert.runId === run.id) runtime.openAlerts.set(alertKey(alert.kind, alert.direction), alert);
-    }
-    return runtime;
-  }
-
-  /** Picks the limits in force: the latest approved version for this line and product, else the product's own target and σ. */
-  private applyLimits(runtime: LineRuntime): void {
-    const { line, product } = runtime;
-    if (!product) return;
-    const version = this.repos.limits.latest(line.id, product.id);
-    if (version) {
-      runtime.model = { centre: version.centre, sigma: version.sigma };
-      runtime.limitsVersionId = version.id;
-      runtime.limitsKey = `version:${version.id}`;
-    } else if (product.sigma !== null) {
-      runtime.model = { centre: product.target, sigma: product.sigma };
-      runtime.limitsVersionId = null;
-      runtime.limitsKey = `product:${product.id}:${product.target}:${product.sigma}:${product.updatedAt}`;
-    } else {
-      runtime.model = null;
-      runtime.limitsVersionId = null;
-      runtime.limitsKey = `product:${product.id}:no-sigma`;
-    }
-    runtime.ruleSet = resolveRuleSet(product.rules);
-  }
-
-  private runtime(lineId: number): LineRuntime {
-    let runtime = this.lines.get(lineId);
-    if (!runtime) {
-      const line = this.repos.lines.get(lineId);
-      if (!line) throw notFound(`line ${lineId}`);
-      runtime = this.loadLine(line, []);
-      this.lines.set(lineId, runtime);
-    }
-    return runtime;
-  }
-
   /** A line was created or renamed, or a product it runs was edited: read it again from storage. */
   reloadLine(lineId: number): void {
-    const line = this.repos.lines.get(lineId);
-    if (!line) return;
-    this.lines.set(lineId, this.loadLine(line, this.repos.alerts.unresolved()));
+    this.lines.reload(lineId);
   }
 
   reloadLinesRunning(productId: number): void {
-    for (const runtime of [...this.lines.values()]) {
-      if (runtime.product?.id === productId) this.reloadLine(runtime.line.id);
-    }
+    this.lines.reloadRunning(productId);
   }
 
   // ---------------------------------------------------------------- checks
@@ -314,8 +165,7 @@ export class Monitor {
   recordCheck(lineId: number, input: CheckInput, actor: string | null): CheckResult {
     const existing = this.repos.checks.getByClientId(input.clientId);
     if (existing) return this.replay(existing, lineId);
-
-    const runtime = this.runtime(lineId);
+    const runtime = this.lines.get(lineId);
     return this.enter(runtime, runtime, input, actor, null);
   }
 
@@ -331,18 +181,8 @@ export class Monitor {
       if (existing.revisesCheckId !== checkId) throw conflict(`clientId ${input.clientId} was already used for another check`);
       return this.replay(existing, old.lineId);
     }
-    if (old.supersededBy !== null) throw conflict(`check ${checkId} was already corrected by check ${old.supersededBy}; correct that one instead`);
-    const runtime = this.runtime(old.lineId);
-    const latest = runtime.window[runtime.window.length - 1];
-    if (runtime.run?.id !== old.runId || latest?.checkId !== old.id) {
-      throw conflict(`only the line's latest check can be corrected; check ${checkId} is not it`);
-    }
-    if (this.clock.now() - old.recordedAt > CORRECTION_WINDOW_MS) {
-      throw conflict(`check ${checkId} was entered more than ${CORRECTION_WINDOW_MS / 3_600_000} hours ago and can no longer be corrected`);
-    }
-    if (runtime.model && !runtime.previous) {
-      throw conflict(`the limits or detectors were reset after check ${checkId}; it can no longer be corrected`);
-    }
+    const runtime = this.lines.get(old.lineId);
+    this.refuseCorrection(runtime, old);
     const base: LineRuntime = {
       ...runtime,
       segment: runtime.previous?.segment ?? runtime.segment,
@@ -353,365 +193,104 @@ export class Monitor {
     return this.enter(runtime, base, { ...input, takenAt: old.takenAt, note: old.note }, actor, { old, reason: input.reason });
   }
 
+  private refuseCorrection(runtime: LineRuntime, old: StoredCheck): void {
+    if (old.supersededBy !== null) throw conflict(`check ${old.id} was already corrected by check ${old.supersededBy}; correct that one instead`);
+    const latest = runtime.window[runtime.window.length - 1];
+    if (runtime.run?.id !== old.runId || latest?.checkId !== old.id) throw conflict(`only the line's latest check can be corrected; check ${old.id} is not it`);
+    if (this.clock.now() - old.recordedAt > CORRECTION_WINDOW_MS) {
+      throw conflict(`check ${old.id} was entered more than ${CORRECTION_WINDOW_MS / 3_600_000} hours ago and can no longer be corrected`);
+    }
+    if (runtime.model && !runtime.previous) throw conflict(`the limits or detectors were reset after check ${old.id}; it can no longer be corrected`);
+  }
+
   /**
-   * The one path every check takes: validate, compute, judge on `base`, store in one transaction,
-   * then move `target` (the line's runtime) on. For a correction `base` is the state before the
-   * corrected check.
+   * The one path every check takes: the pure step decides on `base`, one transaction stores it, then
+   * `target` (the line's runtime) moves on. For a correction `base` is the state before the old check.
    */
-  private enter(
-    target: LineRuntime,
-    base: LineRuntime,
-    input: CheckInput,
-    actor: string | null,
-    correction: { old: StoredCheck; reason: string } | null,
-  ): CheckResult {
-    const runtime = base;
-    const lineId = base.line.id;
-    const { run, product } = runtime;
-    if (!run || !product) throw conflict(`no product is running on line ${runtime.line.code}: change over to a product first`);
-
+  private enter(target: LineRuntime, base: LineRuntime, input: CheckInput, actor: string | null, correction: Correction): CheckResult {
     const now = this.clock.now();
-    const takenAt = input.takenAt ?? now;
-    if (takenAt > now + 5 * 60_000) {
-      throw new DomainError(400, 'bad-request', 'takenAt: lies in the future', [{ field: 'takenAt', message: 'lies in the future' }]);
-    }
-    if (takenAt < run.startedAt) {
-      throw new DomainError(400, 'bad-request', 'takenAt: before the current run started', [
-        { field: 'takenAt', message: `before the current run started (${new Date(run.startedAt).toISOString()})` },
-      ]);
-    }
-    const basis = input.basis ?? 'net';
-    const nets = basis === 'gross' ? input.weights.map((w) => w - product.tare) : input.weights.slice();
-    const notPositive = nets.flatMap((w, i) => (w > 0 ? [] : [i]));
-    if (notPositive.length > 0) {
-      const issues = notPositive.map((i) => ({ field: `weights.${i}`, message: `after the tare of ${product.tare} ${product.unit} this is not above 0` }));
-      throw new DomainError(400, 'bad-request', issues.map((i) => `${i.field}: ${i.message}`).join('; '), issues);
-    }
-    if (!input.confirmSuspect) {
-      const lo = 0.5 * product.nominal;
-      const hi = 1.5 * product.nominal;
-      const suspect = nets.flatMap((w, i) => (w < lo || w > hi ? [{ index: i, value: input.weights[i] as number }] : []));
-      if (suspect.length > 0) {
-        throw new DomainError(
-          422,
-          'suspect-weights',
-          `weights ${suspect.map((s) => s.value).join(', ')} lie outside ${lo}–${hi} ${product.unit} (half to one and a half times nominal): probably a slipped decimal; correct them or send confirmSuspect: true`,
-          suspect.map((s) => ({ field: `weights.${s.index}`, message: `${s.value} is outside ${lo}–${hi} ${product.unit}` })),
-          { suspect },
-        );
-      }
-    }
-
-    const own = summarizeSample(nets, product.target);
-    const belowT1 = product.t1 === null ? 0 : nets.filter((w) => w < (product.t1 as number)).length;
-    const belowT2 = product.t2 === null ? 0 : nets.filter((w) => w < (product.t2 as number)).length;
-    const windowChecks = [...runtime.window.slice(-(product.windowSize - 1)), { checkId: 0, weights: nets }];
-    const pooled = windowChecks.flatMap((c) => c.weights);
-    const windowed = summarizeSample(pooled, product.target);
-
-    const { nextSegment, pending } = this.judge(runtime, product, nets, own.mean, own.sd, own.range, belowT2);
-
-    const newCheck: NewCheck = {
-      lineId,
-      runId: run.id,
-      productId: product.id,
-      clientId: input.clientId,
-      takenAt,
-      recordedAt: now,
-      basis,
-      enteredBy: actor,
-      note: input.note ?? null,
-      revision: correction ? correction.old.revision + 1 : 1,
-      revisesCheckId: correction?.old.id ?? null,
-      revisionReason: correction?.reason ?? null,
-      n: own.n,
-      mean: own.mean,
-      sd: own.sd,
-      range: own.range,
-      target: product.target,
-      belowT1,
-      belowT2,
-      windowChecks: windowChecks.length,
-      windowN: windowed.n,
-      windowMean: windowed.mean,
-      windowSd: windowed.sd,
-      limitsVersionId: runtime.limitsVersionId,
-      weights: nets,
-      grossWeights: basis === 'gross' ? input.weights.slice() : null,
-    };
-
-    const previous = runtime.model ? { segment: runtime.segment, segmentStartCheckId: runtime.segmentStartCheckId } : null;
-    const outcome = this.db.transaction(() => {
-      const checkId = this.repos.checks.insert(newCheck);
-      if (correction) {
-        if (!this.repos.checks.markSuperseded(correction.old.id, checkId)) throw conflict(`check ${correction.old.id} was corrected meanwhile`);
-        this.repos.audit.record({
-          at: now,
-          actor: actor ?? 'unknown',
-          action: 'check.correct',
-          entity: 'check',
-          entityId: correction.old.id,
-          before: { checkId: correction.old.id, revision: correction.old.revision, weights: correction.old.weights },
-          after: { checkId, revision: newCheck.revision, weights: nets, reason: correction.reason },
-        });
-      }
-      const segmentStartCheckId = runtime.segmentStartCheckId ?? checkId;
-      const point: SegmentPoint = { checkId, takenAt, mean: own.mean, n: own.n, index: runtime.segment.count };
-      const points = runtime.model ? [...runtime.points.slice(-(SEGMENT_MEMORY - 1)), point] : runtime.points;
-      const openAlerts = new Map(runtime.openAlerts);
-      const { signals, touched, opened } = this.storeSignals(runtime, openAlerts, points, pending, checkId, takenAt, now);
-      const overdue = openAlerts.get(alertKey('check-overdue', null));
-      if (overdue) {
-        const closed: StoredAlert = {
-          ...overdue,
-          state: 'resolved',
-          resolvedAt: now,
-          resolvedBy: 'heft',
-          cause: 'a check arrived',
-          action: 'none needed',
-          updatedAt: now,
-          latestCheckId: checkId,
-        };
-        this.repos.alerts.update(closed);
-        openAlerts.delete(alertKey('check-overdue', null));
-        touched.set(closed.id, closed);
-      }
-      if (runtime.model) {
-        this.repos.monitorState.save(
-          { lineId, runId: run.id, limitsKey: runtime.limitsKey, segmentStartCheckId, segment: nextSegment, previous },
-          now,
-        );
-      }
-      // the row just written, without reading it back
-      const check = checkView({ ...newCheck, id: checkId, supersededBy: null });
-      const signalViews = signals.map(signalView);
-      const alertViews = [...touched.values()].map((a) => alertViewFrom(this.repos.alerts, a));
-      const messages = this.record(now, [
-        { type: 'check', lineId, check, signals: signalViews },
-        ...alertViews.map((alert) => ({
-          type: opened.has(alert.id) ? ('alert-opened' as const) : ('alert-updated' as const),
-          lineId,
-          alert,
-        })),
-      ]);
-      return { checkId, segmentStartCheckId, points, openAlerts, check, signalViews, alertViews, messages };
-    }).immediate();
+    const step = checkStep(base, input, now, actor, correction);
+    const previous = base.model ? { segment: base.segment, segmentStartCheckId: base.segmentStartCheckId } : null;
+    const outcome = this.db.transaction(() => this.storeCheck(base, step, correction, previous, actor, now)).immediate();
 
     // committed: only now does memory move on
-    if (runtime.model) {
-      target.segment = nextSegment;
+    if (base.model) {
+      target.segment = step.nextSegment;
       target.segmentStartCheckId = outcome.segmentStartCheckId;
       target.points = outcome.points;
       target.previous = previous;
     }
-    target.window = [...windowChecks.slice(0, -1), { checkId: outcome.checkId, weights: nets }];
-    target.lastTakenAt = Math.max(target.lastTakenAt ?? -Infinity, takenAt);
+    target.window = [...step.windowChecks.slice(0, -1), { checkId: outcome.result.check.id, weights: step.nets }];
+    target.lastTakenAt = Math.max(target.lastTakenAt ?? -Infinity, step.newCheck.takenAt);
     target.openAlerts = outcome.openAlerts;
-
-    this.emit(outcome.messages, lineId);
-    return { created: true, check: outcome.check, signals: outcome.signalViews, alerts: outcome.alertViews };
+    this.emit(outcome.messages, base.line.id);
+    return outcome.result;
   }
 
+  /** Writes a judged check with its signals, alerts, detector state and live messages; inside the caller's transaction. */
+  private storeCheck(base: LineRuntime, step: CheckStep, correction: Correction, previous: LineRuntime['previous'], actor: string | null, now: number) {
+    const { newCheck } = step;
+    const lineId = base.line.id;
+    const checkId = this.repos.checks.insert(newCheck);
+    if (correction) this.supersede(correction, checkId, newCheck.revision, step.nets, actor, now);
+    const segmentStartCheckId = base.segmentStartCheckId ?? checkId;
+    const point: SegmentPoint = { checkId, takenAt: newCheck.takenAt, mean: newCheck.mean, n: newCheck.n, index: base.segment.count };
+    const points = base.model ? [...base.points.slice(-(SEGMENT_MEMORY - 1)), point] : base.points;
+    const openAlerts = new Map(base.openAlerts);
+    const { signals, touched, opened } = this.alerts.storeSignals(base, openAlerts, points, step.pending, { id: checkId, takenAt: newCheck.takenAt }, now);
+    const closed = this.alerts.closeOverdue(openAlerts, 'a check arrived', now, checkId);
+    if (closed) touched.set(closed.id, closed);
+    if (base.model && base.run) {
+      this.repos.monitorState.save({ lineId, runId: base.run.id, limitsKey: base.limitsKey, segmentStartCheckId, segment: step.nextSegment, previous }, now);
+    }
+    // the row just written, without reading it back
+    const check = checkView({ ...newCheck, id: checkId, supersededBy: null });
+    const signalViews = checkSignalView(signals);
+    const summaries = [...touched.values()].map(alertSummary);
+    const messages = this.record(now, [
+      { type: 'check', lineId, check, signals: signalViews },
+      ...summaries.map((alert) => ({ type: opened.has(alert.id) ? ('alert-opened' as const) : ('alert-updated' as const), lineId, alert })),
+    ]);
+    const result: CheckResult = { created: true, check, signals: signalViews, alerts: summaries };
+    return { segmentStartCheckId, points, openAlerts, messages, result };
+  }
+
+  private supersede(correction: NonNullable<Correction>, checkId: number, revision: number, nets: number[], actor: string | null, now: number): void {
+    const { old, reason } = correction;
+    if (!this.repos.checks.markSuperseded(old.id, checkId)) throw conflict(`check ${old.id} was corrected meanwhile`);
+    this.repos.audit.record({
+      at: now,
+      actor: actor ?? 'unknown',
+      action: 'check.correct',
+      entity: 'check',
+      entityId: old.id,
+      before: { checkId: old.id, revision: old.revision, weights: old.weights },
+      after: { checkId, revision, weights: nets, reason },
+    });
+  }
+
+  /** The stored answer for a clientId seen before: the check, its signals and its alerts as they stand now. */
   private replay(existing: StoredCheck, lineId: number): CheckResult {
-    if (existing.lineId !== lineId) {
-      throw conflict(`clientId ${existing.clientId} was already used for a check on another line`);
-    }
-    const stored = this.repos.alerts;
-    const alerts = stored.alertIdsForCheck(existing.id).map((id) => stored.get(id) as StoredAlert);
-    const signals = alerts.flatMap((a) => stored.signalsOf(a.id).filter((s) => s.checkId === existing.id));
-    return {
-      created: false,
-      check: checkView(existing),
-      signals: signals.map(signalView),
-      alerts: alerts.map((a) => alertViewFrom(this.repos.alerts, a)),
-    };
-  }
-
-  /** Runs the rules on the would-be next point; pure with respect to the runtime. */
-  private judge(
-    runtime: LineRuntime,
-    product: Product,
-    nets: readonly number[],
-    m: number,
-    sd: number | null,
-    r: number,
-    belowT2: number,
-  ): { nextSegment: SegmentState; pending: PendingSignal[] } {
-    const pending: PendingSignal[] = [];
-    const set = runtime.ruleSet;
-    let nextSegment = runtime.segment;
-    const model = runtime.model;
-    if (model) {
-      const n = nets.length;
-      const z = standardisedMean(m, n, model);
-      let spread: { value: number; ucl: number } | null = null;
-      if (n >= 2) {
-        const limits = spreadChartLimits(model.sigma, n);
-        spread = { value: limits.chart === 'S' ? (sd as number) : r, ucl: limits.ucl };
-      } else {
-        const previous = runtime.points[runtime.points.length - 1];
-        if (previous && previous.n === 1) {
-          spread = { value: Math.abs(m - previous.mean), ucl: spreadChartLimits(model.sigma, 1).ucl };
-        }
-      }
-      const judged = judgePoint(set, runtime.segment, { z, spread });
-      nextSegment = judged.state;
-      const meanSize: ShiftSize = { unit: m - model.centre, sigma: (m - model.centre) / model.sigma };
-      for (const s of judged.signals) {
-        pending.push(this.pendingFrom(s, set, model, meanSize, sd));
-      }
-    }
-    if (set.enabled['pack-below-t2'] && belowT2 > 0 && product.t2 !== null) {
-      const lowest = Math.min(...nets);
-      pending.push({
-        rule: 'pack-below-t2',
-        kind: 'pack-below-t2',
-        direction: 'down',
-        severity: set.severity['pack-below-t2'],
-        onsetIndex: runtime.segment.count,
-        size: { unit: lowest - product.t2, sigma: model ? (lowest - product.t2) / model.sigma : null },
-      });
-    }
-    return { nextSegment, pending };
-  }
-
-  private pendingFrom(s: RawSignal, set: RuleSet, model: ProcessModel, meanSize: ShiftSize, sd: number | null): PendingSignal {
-    const kind = kindOf(s.rule);
-    let size: ShiftSize = meanSize;
-    if (kind === 'spread-up') {
-      const excess = (sd ?? 0) - model.sigma;
-      size = { unit: excess, sigma: excess / model.sigma };
-    }
-    return { rule: s.rule, kind, direction: s.direction, severity: set.severity[s.rule], onsetIndex: s.onsetIndex, size };
-  }
-
-  /** Writes this check's signals, opening an alert per new kind and direction or joining the open one. */
-  private storeSignals(
-    runtime: LineRuntime,
-    openAlerts: Map<string, StoredAlert>,
-    points: readonly SegmentPoint[],
-    pending: readonly PendingSignal[],
-    checkId: number,
-    takenAt: number,
-    now: number,
-  ): { signals: StoredSignal[]; touched: Map<number, StoredAlert>; opened: Set<number> } {
-    const signals: StoredSignal[] = [];
-    const touched = new Map<number, StoredAlert>();
-    const opened = new Set<number>();
-    const pointAt = (index: number): SegmentPoint | null => {
-      if (points.length === 0) return null;
-      const first = points[0] as SegmentPoint;
-      const found = points[index - first.index];
-      return found ?? (index < first.index ? first : (points[points.length - 1] as SegmentPoint));
-    };
-    for (const p of pending) {
-      const onset = pointAt(p.onsetIndex);
-      const onsetCheckId = onset?.checkId ?? checkId;
-      const onsetAt = onset?.takenAt ?? takenAt;
-      const key = alertKey(p.kind, p.direction);
-      let alert = openAlerts.get(key);
-      // a mean shift's size is measured on its own points (from its change point, or else its onset,
-      // to now), so a shift down is never sized by a shift up still in the segment
-      const meanShift = p.kind === 'mean-shift' && p.direction !== null && runtime.model;
-      const changePoint = meanShift ? this.changePoint(points, runtime.model as ProcessModel, p.direction as Direction) : null;
-      const size = meanShift ? (changePoint?.size ?? this.sizeSince(points, p.onsetIndex, runtime.model as ProcessModel) ?? p.size) : p.size;
-      if (!alert) {
-        alert = this.repos.alerts.insert({
-          lineId: runtime.line.id,
-          runId: runtime.run?.id ?? null,
-          kind: p.kind,
-          direction: p.direction,
-          severity: p.severity,
-          state: 'open',
-          rules: [p.rule],
-          openedAt: now,
-          onsetAt,
-          onsetCheckId,
-          changePointAt: changePoint?.at ?? null,
-          changePointCheckId: changePoint?.checkId ?? null,
-          size,
-          latestCheckId: checkId,
-          updatedAt: now,
-          acknowledgedBy: null,
-          acknowledgedAt: null,
-          acknowledgeNote: null,
-          resolvedBy: null,
-          resolvedAt: null,
-          cause: null,
-          action: null,
-        });
-        opened.add(alert.id);
-      } else {
-        const earlier = alert.onsetAt === null || onsetAt < alert.onsetAt;
-        alert = {
-          ...alert,
-          rules: alert.rules.includes(p.rule) ? alert.rules : [...alert.rules, p.rule],
-          severity: SEVERITY_RANK[p.severity] > SEVERITY_RANK[alert.severity] ? p.severity : alert.severity,
-          onsetAt: earlier ? onsetAt : alert.onsetAt,
-          onsetCheckId: earlier ? onsetCheckId : alert.onsetCheckId,
-          changePointAt: changePoint?.at ?? alert.changePointAt,
-          changePointCheckId: changePoint?.checkId ?? alert.changePointCheckId,
-          size,
-          latestCheckId: checkId,
-          updatedAt: now,
-        };
-        this.repos.alerts.update(alert);
-      }
-      openAlerts.set(key, alert);
-      touched.set(alert.id, alert);
-      signals.push(
-        this.repos.alerts.insertSignal({
-          alertId: alert.id,
-          checkId,
-          rule: p.rule,
-          severity: p.severity,
-          direction: p.direction,
-          at: takenAt,
-          size: p.size,
-          onsetCheckId,
-        }),
-      );
-    }
-    return { signals, touched, opened };
-  }
-
-  /** The most likely start of a step in the mean, on the alert's side of the centre (Samuel, Pignatiello & Calvin 1998). */
-  private changePoint(points: readonly SegmentPoint[], model: ProcessModel, direction: Direction) {
-    const estimate = directedStepChangePoint(points, model.centre, direction);
-    if (!estimate) return null;
-    const first = points[estimate.firstShiftedIndex] as SegmentPoint;
-    const shift = estimate.shiftedMean - model.centre;
-    return { at: first.takenAt, checkId: first.checkId, size: { unit: shift, sigma: shift / model.sigma } };
-  }
-
-  /** The packs-weighted mean of the segment's points from `index` on, less the centre. */
-  private sizeSince(points: readonly SegmentPoint[], index: number, model: ProcessModel): ShiftSize | null {
-    const own = points.filter((p) => p.index >= index);
-    const packs = own.reduce((sum, p) => sum + p.n, 0);
-    if (packs === 0) return null;
-    const shift = own.reduce((sum, p) => sum + p.n * p.mean, 0) / packs - model.centre;
-    return { unit: shift, sigma: shift / model.sigma };
+    if (existing.lineId !== lineId) throw conflict(`clientId ${existing.clientId} was already used for a check on another line`);
+    const signals = this.repos.alerts.signalsOfCheck(existing.id);
+    const alertIds = [...new Set(signals.map((s) => s.alertId))];
+    const alerts = alertIds.map((id) => this.repos.alerts.get(id) as StoredAlert);
+    return { created: false, check: checkView(existing), signals: checkSignalView(signals), alerts: alerts.map(alertSummary) };
   }
 
   // ---------------------------------------------------------------- changeover and limits
 
   /** Ends the running run (if any) and starts the product on the line. */
   changeover(lineId: number, productId: number, actor: string): Run {
-    const runtime = this.runtime(lineId);
+    const runtime = this.lines.get(lineId);
     const product = this.repos.products.get(productId);
     if (!product) throw notFound(`product ${productId}`);
     const now = this.clock.now();
     const before = runtime.run;
-    const touched: StoredAlert[] = [];
-    const run = this.db.transaction(() => {
+    const done = this.db.transaction(() => {
       if (before) this.repos.lines.endRun(before.id, now);
       const started = this.repos.lines.startRun(lineId, productId, now);
-      const overdue = runtime.openAlerts.get(alertKey('check-overdue', null));
-      if (overdue) {
-        const closed: StoredAlert = { ...overdue, state: 'resolved', resolvedAt: now, resolvedBy: 'heft', cause: 'changeover', action: 'none needed', updatedAt: now };
-        this.repos.alerts.update(closed);
-        touched.push(closed);
-      }
+      const closed = this.alerts.closeOverdue(new Map(runtime.openAlerts), 'changeover', now);
       this.repos.audit.record({
         at: now,
         actor,
@@ -722,72 +301,69 @@ export class Monitor {
         after: { runId: started.id, productId },
       });
       const messages = this.record(now, [
-        ...touched.map((a) => ({ type: 'alert-updated' as const, lineId, alert: alertViewFrom(this.repos.alerts, a) })),
+        ...(closed ? [{ type: 'alert-updated' as const, lineId, alert: alertViewFrom(this.repos.alerts, closed) }] : []),
         { type: 'line-status', lineId, reason: 'changeover' },
       ]);
       return { started, messages };
     }).immediate();
-    this.reloadLine(lineId);
-    this.emit(run.messages, lineId);
-    return run.started;
+    this.lines.reload(lineId);
+    this.emit(done.messages, lineId);
+    return done.started;
   }
 
-  /** New limits were approved for the line's running product: judge from a fresh segment. */
-  limitsChanged(lineId: number): void {
-    this.reloadLine(lineId);
-    const messages = this.db.transaction(() => this.record(this.clock.now(), [{ type: 'line-status', lineId, reason: 'limits' }])).immediate();
-    this.emit(messages, lineId);
+  /**
+   * New limits are being approved for the line's running product: call inside the transaction that
+   * stores them, so the version, its audit and its message commit together; `afterCommit` then
+   * makes the line judge from a fresh segment.
+   */
+  limitsChanged(lineId: number): { messages: LiveEvent[]; afterCommit: () => void } {
+    const messages = this.record(this.clock.now(), [{ type: 'line-status', lineId, reason: 'limits' }]);
+    return {
+      messages,
+      afterCommit: () => {
+        this.lines.reload(lineId);
+        this.emit(messages, lineId);
+      },
+    };
   }
 
   // ---------------------------------------------------------------- alerts
 
   acknowledge(alertId: number, note: string, actor: string): AlertView {
-    return this.transition(alertId, actor, (alert, now) => {
-      if (alert.state !== 'open') throw conflict(`alert ${alertId} is ${alert.state}; only an open alert can be acknowledged`);
-      return { ...alert, state: 'acknowledged', acknowledgedAt: now, acknowledgedBy: actor, acknowledgeNote: note, updatedAt: now };
-    });
+    const now = this.clock.now();
+    return this.afterTransition(this.db.transaction(() => this.withMessage(this.alerts.acknowledge(alertId, note, actor, now).updated, now)).immediate());
   }
 
   resolve(alertId: number, cause: string, action: string, actor: string): AlertView {
-    return this.transition(alertId, actor, (alert, now) => {
-      if (alert.state === 'resolved') throw conflict(`alert ${alertId} is already resolved`);
-      return { ...alert, state: 'resolved', resolvedAt: now, resolvedBy: actor, cause, action, updatedAt: now };
-    });
+    const now = this.clock.now();
+    return this.afterTransition(
+      this.db.transaction(() => {
+        const { updated } = this.alerts.resolve(alertId, cause, action, actor, now);
+        // A resolved shift means its cause was removed: the detectors start afresh on the next check,
+        // or they would signal again at once on evidence from before the fix.
+        const runtime = this.lines.peek(updated.lineId);
+        if (updated.kind === 'mean-shift' && runtime?.run && runtime.run.id === updated.runId && runtime.model) {
+          this.repos.monitorState.save({ lineId: updated.lineId, runId: runtime.run.id, limitsKey: runtime.limitsKey, segmentStartCheckId: null, segment: freshSegment(), previous: null }, now);
+        }
+        return this.withMessage(updated, now);
+      }).immediate(),
+    );
   }
 
-  private transition(alertId: number, actor: string, change: (alert: StoredAlert, now: number) => StoredAlert): AlertView {
-    const now = this.clock.now();
-    const outcome = this.db.transaction(() => {
-      const alert = this.repos.alerts.get(alertId);
-      if (!alert) throw notFound(`alert ${alertId}`);
-      const updated = change(alert, now);
-      this.repos.alerts.update(updated);
-      this.repos.audit.record({
-        at: now,
-        actor,
-        action: `alert.${updated.state === 'resolved' ? 'resolve' : 'acknowledge'}`,
-        entity: 'alert',
-        entityId: alertId,
-        before: { state: alert.state },
-        after: updated.state === 'resolved' ? { state: updated.state, cause: updated.cause, action: updated.action } : { state: updated.state, note: updated.acknowledgeNote },
-      });
-      const runtime = this.lines.get(alert.lineId);
-      // A resolved shift means its cause was removed: the detectors start afresh on the next check,
-      // or they would signal again at once on evidence from before the fix.
-      if (updated.state === 'resolved' && updated.kind === 'mean-shift' && runtime?.run?.id === alert.runId && runtime.run && runtime.model) {
-        this.repos.monitorState.save(
-          { lineId: alert.lineId, runId: runtime.run.id, limitsKey: runtime.limitsKey, segmentStartCheckId: null, segment: freshSegment(), previous: null },
-          now,
-        );
-      }
-      const messages = this.record(now, [{ type: 'alert-updated', lineId: updated.lineId, alert: alertViewFrom(this.repos.alerts, updated) }]);
-      return { updated, messages };
-    }).immediate();
+  private withMessage(updated: StoredAlert, now: number) {
+    const view = alertViewFrom(this.repos.alerts, updated);
+    return { updated, view, messages: this.record(now, [{ type: 'alert-updated', lineId: updated.lineId, alert: view }]) };
+  }
+
+  /** Committed: the line's open alerts follow, and a resolved mean shift restarts the detectors. */
+  private afterTransition(outcome: { updated: StoredAlert; view: AlertView; messages: LiveEvent[] }): AlertView {
     const next = outcome.updated;
-    const runtime = this.lines.get(next.lineId);
+    const runtime = this.lines.peek(next.lineId);
     if (runtime) {
       const key = alertKey(next.kind, next.direction);
-      if (next.state === 'resolved') {
+      if (next.state !== 'resolved') {
+        if (runtime.openAlerts.get(key)?.id === next.id) runtime.openAlerts.set(key, next);
+      } else {
         if (runtime.openAlerts.get(key)?.id === next.id) runtime.openAlerts.delete(key);
         if (next.kind === 'mean-shift' && runtime.run?.id === next.runId && runtime.model) {
           runtime.segment = freshSegment();
@@ -795,12 +371,10 @@ export class Monitor {
           runtime.points = [];
           runtime.previous = null;
         }
-      } else if (runtime.openAlerts.get(key)?.id === next.id) {
-        runtime.openAlerts.set(key, next);
       }
     }
     this.emit(outcome.messages, next.lineId);
-    return (outcome.messages[0] as Extract<LiveEvent, { alert: AlertView }>).alert;
+    return outcome.view;
   }
 
   // ---------------------------------------------------------------- overdue
@@ -809,35 +383,12 @@ export class Monitor {
   sweepOverdue(): AlertView[] {
     const now = this.clock.now();
     const opened: AlertView[] = [];
-    for (const runtime of this.lines.values()) {
+    for (const runtime of this.lines.all()) {
       const due = this.nextDue(runtime);
       if (due === null || now <= due + this.graceMs) continue;
       if (runtime.openAlerts.has(alertKey('check-overdue', null))) continue;
       const { alert, messages } = this.db.transaction(() => {
-        const created = this.repos.alerts.insert({
-          lineId: runtime.line.id,
-          runId: runtime.run?.id ?? null,
-          kind: 'check-overdue',
-          direction: null,
-          severity: 'watch',
-          state: 'open',
-          rules: ['check-overdue'],
-          openedAt: now,
-          onsetAt: due,
-          onsetCheckId: null,
-          changePointAt: null,
-          changePointCheckId: null,
-          size: null,
-          latestCheckId: null,
-          updatedAt: now,
-          acknowledgedBy: null,
-          acknowledgedAt: null,
-          acknowledgeNote: null,
-          resolvedBy: null,
-          resolvedAt: null,
-          cause: null,
-          action: null,
-        });
+        const created = this.alerts.openOverdue(runtime, due, now);
         return { alert: created, messages: this.record(now, [{ type: 'alert-opened', lineId: runtime.line.id, alert: alertView(created, []) }]) };
       }).immediate();
       runtime.openAlerts.set(alertKey('check-overdue', null), alert);
@@ -857,15 +408,11 @@ export class Monitor {
 
   /** What the status route and the board show for a line, from memory. */
   lineState(lineId: number) {
-    const runtime = this.runtime(lineId);
+    const runtime = this.lines.get(lineId);
     const { product, model, run } = runtime;
     const due = this.nextDue(runtime);
     const open = [...runtime.openAlerts.values()];
-    const status: 'steady' | 'watch' | 'act' = open.some((a) => a.severity === 'act')
-      ? 'act'
-      : open.length > 0
-        ? 'watch'
-        : 'steady';
+    const status: 'steady' | 'watch' | 'act' = open.some((a) => a.severity === 'act') ? 'act' : open.length > 0 ? 'watch' : 'steady';
     const n = product?.subgroupSize ?? 1;
     return {
       line: runtime.line,
@@ -892,6 +439,6 @@ export class Monitor {
   }
 
   lineIds(): number[] {
-    return [...this.lines.keys()];
+    return this.lines.ids();
   }
 }

@@ -79,10 +79,34 @@ export function signalView(s: StoredSignal) {
 
 export type SignalView = ReturnType<typeof signalView>;
 
-/** How many of an alert's signals a view carries (the latest); `signalCount` says how many there are. */
+/**
+ * A check's signals as its answer gives them: grouped by the alert each joined, with the size once
+ * per group (every signal of one kind on one check has the same size) and per rule only what
+ * differs. The check and its time are the answer's own; the words are the alert summary's.
+ */
+export function checkSignalView(signals: readonly StoredSignal[]) {
+  const groups = new Map<number, { alertId: number; direction: StoredSignal['direction']; size: StoredSignal['size']; rules: { rule: StoredSignal['rule']; severity: StoredSignal['severity']; onsetCheckId: number | null }[] }>();
+  for (const s of signals) {
+    let group = groups.get(s.alertId);
+    if (!group) {
+      group = { alertId: s.alertId, direction: s.direction, size: s.size, rules: [] };
+      groups.set(s.alertId, group);
+    }
+    group.rules.push({ rule: s.rule, severity: s.severity, onsetCheckId: s.onsetCheckId });
+  }
+  return [...groups.values()];
+}
+
+export type CheckSignalView = ReturnType<typeof checkSignalView>[number];
+
+/** How many of an alert's signals a full view carries (the latest); `signalCount` says how many there are. */
 export const SIGNALS_IN_VIEW = 50;
 
-export function alertView(a: StoredAlert, signals: readonly StoredSignal[], signalCount = signals.length) {
+/**
+ * What a check's answer and its live messages say of each alert it touched: no signal history and no
+ * free text, so its size does not grow with the alert. The full view is on GET /api/alerts/:id.
+ */
+export function alertSummary(a: StoredAlert) {
   return {
     id: a.id,
     lineId: a.lineId,
@@ -93,14 +117,23 @@ export function alertView(a: StoredAlert, signals: readonly StoredSignal[], sign
     state: a.state,
     rules: a.rules,
     ruleWords: a.rules.map(ruleWords),
-    signals: signals.slice(-SIGNALS_IN_VIEW).map(signalView),
-    signalCount,
+    signalCount: a.signalCount,
     openedAt: toIso(a.openedAt),
     updatedAt: toIso(a.updatedAt),
     onset: { at: toIso(a.onsetAt), checkId: a.onsetCheckId },
     changePoint: a.changePointCheckId === null ? null : { at: toIso(a.changePointAt), checkId: a.changePointCheckId },
     size: a.size,
     latestCheckId: a.latestCheckId,
+  };
+}
+
+export type AlertSummary = ReturnType<typeof alertSummary>;
+
+/** An alert in full: the summary, who saw to it and why, and a page of its signals. */
+export function alertView(a: StoredAlert, signals: readonly StoredSignal[]) {
+  return {
+    ...alertSummary(a),
+    signals: signals.map(signalView),
     acknowledged: a.acknowledgedAt === null ? null : { by: a.acknowledgedBy, at: toIso(a.acknowledgedAt), note: a.acknowledgeNote },
     resolved: a.resolvedAt === null ? null : { by: a.resolvedBy, at: toIso(a.resolvedAt), cause: a.cause, action: a.action },
   };
@@ -108,8 +141,7 @@ export function alertView(a: StoredAlert, signals: readonly StoredSignal[], sign
 
 export type AlertView = ReturnType<typeof alertView>;
 
-/** An alert's view with its latest signals read from storage. */
+/** An alert's full view with its latest signals read from storage. */
 export function alertViewFrom(alerts: AlertRepository, a: StoredAlert): AlertView {
-  const { signals, total } = alerts.recentSignalsOf(a.id, SIGNALS_IN_VIEW);
-  return alertView(a, signals, total);
+  return alertView(a, alerts.signalPage(a.id, null, SIGNALS_IN_VIEW));
 }

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { closeAfterEach, countRows, makeTestApp, postCheck, setupLine, weightsWithMean, type TestApp } from '../helpers.js';
+import { closeAfterEach, countRows, makeTestApp, postCheck, rulesOf, setupLine, weightsWithMean, type TestApp } from '../helpers.js';
 
 let t: TestApp | null = null;
 closeAfterEach(
@@ -215,9 +215,9 @@ describe('variable n', () => {
     t.clock.advance(HOUR);
     // mean 506.5: beyond 3σ/√5 = 2.68 g, within 3σ/√2 = 4.24 g
     const two = await postCheck(t, lineId, [506, 507]);
-    expect(two.json().signals.map((s: { rule: string }) => s.rule)).not.toContain('beyond-3-sigma');
+    expect(rulesOf(two.json())).not.toContain('beyond-3-sigma');
     t.clock.advance(HOUR);
     const five = await postCheck(t, lineId, weightsWithMean(506.5));
-    expect(five.json().signals.map((s: { rule: string }) => s.rule)).toContain('beyond-3-sigma');
+    expect(rulesOf(five.json())).toContain('beyond-3-sigma');
   });
 });

@@ -1,7 +1,7 @@
 import '../shared/base.css';
 import './board.css';
 import type uPlot from 'uplot';
-import { api, ApiError, getPlant, signIn, signOut, whoAmI, type Alert, type Check, type Line, type Plant, type Status, type User } from '../shared/api.js';
+import { api, ApiError, getPlant, signIn, signOut, whoAmI, type Alert, type AlertSummary, type Check, type Line, type Plant, type Status, type User } from '../shared/api.js';
 import { meanChart, meanChartData, spreadChart, type ChartPoint } from '../shared/charts.js';
 import { alertTitle, clock, dateTime, duration, el, overUnder, weight } from '../shared/format.js';
 import { LiveClient, type LiveMessage } from '../shared/live.js';
@@ -14,6 +14,8 @@ interface LineView {
   status: Status | null;
   points: ChartPoint[];
   alerts: Map<number, Alert>;
+  /** Checks that raised a signal: marked on the charts. */
+  signalled: Set<number>;
   tile: HTMLElement | null;
   chart: uPlot | null;
 }
@@ -52,7 +54,8 @@ async function loadLine(line: Line): Promise<LineView> {
   const unresolved = status.openAlerts;
   const all = new Map<number, Alert>(alerts.map((a) => [a.id, a]));
   for (const a of unresolved) all.set(a.id, a);
-  return { line, status, points: checks.map(toPoint), alerts: all, tile: null, chart: null };
+  const signalled = new Set([...all.values()].flatMap((a) => a.signals.map((s) => s.checkId ?? -1)));
+  return { line, status, points: checks.map(toPoint), alerts: all, signalled, tile: null, chart: null };
 }
 
 async function loadAll(): Promise<void> {
@@ -164,7 +167,7 @@ function drawTileChart(v: LineView): void {
   const limits = v.status?.limits;
   const box = v.tile?.querySelector('.chart') as HTMLElement | null;
   if (!limits || !box || v.points.length === 0) return;
-  const signalled = new Set([...v.alerts.values()].flatMap((a) => a.signals.map((s) => s.checkId ?? -1)));
+  const signalled = v.signalled;
   const width = Math.max(200, box.clientWidth);
   v.chart = meanChart(box, width, Math.max(90, Math.min(180, Math.round(width * 0.32))), meanChartData(v.points.slice(-MAX_POINTS), limits.centre, limits.sigma, signalled, true), true);
 }
@@ -230,7 +233,7 @@ function renderDetail(): void {
   meanBox.replaceChildren();
   spreadBox.replaceChildren();
   if (limits && v.points.length > 0) {
-    const signalled = new Set([...v.alerts.values()].flatMap((a) => a.signals.map((s) => s.checkId ?? -1)));
+    const signalled = v.signalled;
     const width = Math.max(320, meanBox.clientWidth || 600);
     detailCharts.push(meanChart(meanBox, width, 320, meanChartData(v.points, limits.centre, limits.sigma, signalled)));
     $('spread-caption').textContent = `${limits.spreadChart.chart === 'S' ? 'Standard deviation' : limits.spreadChart.chart === 'R' ? 'Range' : 'Moving range'} of each check with its upper limit`;
@@ -324,10 +327,12 @@ $('signout').addEventListener('click', async () => {
 
 // ------------------------------------------------------------------ live
 
-function applyAlert(alert: Alert): void {
+/** A full alert (after an acknowledgement or resolution) or a check's summary of it: what is known is kept. */
+function applyAlert(alert: Alert | AlertSummary): void {
   const v = board.lines.get(alert.lineId);
   if (!v) return;
-  v.alerts.set(alert.id, alert);
+  const known = v.alerts.get(alert.id);
+  v.alerts.set(alert.id, { signals: [], acknowledged: null, resolved: null, ...known, ...alert });
   if (v.status) v.status.openAlerts = [...v.alerts.values()].filter((a) => a.state !== 'resolved');
   refreshTile(v);
 }
@@ -359,6 +364,7 @@ async function onMessage(m: LiveMessage): Promise<void> {
   if (!v) return;
   if (m.type === 'check') {
     const check = m.check as Check;
+    if ((m.signals as unknown[]).length > 0) v.signalled.add(check.id);
     v.points = [...v.points.filter((p) => p.checkId !== check.id), toPoint(check)].slice(-MAX_POINTS * 4);
     if (v.status) {
       v.status.lastCheckAt = check.takenAt;
@@ -368,7 +374,7 @@ async function onMessage(m: LiveMessage): Promise<void> {
     refreshTile(v);
   } else if (m.type === 'alert-opened' || m.type === 'alert-updated') {
     if (m.type === 'alert-opened') beep();
-    applyAlert(m.alert as Alert);
+    applyAlert(m.alert as Alert | AlertSummary);
   } else if (m.type === 'line-status') {
     v = await loadLine(v.line);
     board.lines.set(lineId, v);

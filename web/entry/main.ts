@@ -1,6 +1,6 @@
 import '../shared/base.css';
 import './entry.css';
-import { api, ApiError, getPlant, NetworkError, signIn, signOut, whoAmI, type Check, type Line, type Plant, type Product, type Signal, type Status, type User } from '../shared/api.js';
+import { api, ApiError, getPlant, NetworkError, signIn, signOut, whoAmI, type Check, type Line, type Plant, type AlertSummary, type CheckSignal, type Product, type Status, type User } from '../shared/api.js';
 import { clock, decimalsFor, el, overUnder, parseDecimal, weight } from '../shared/format.js';
 import { enqueue, remove, waiting, type QueuedCheck } from './queue.js';
 
@@ -9,7 +9,16 @@ const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as 
 
 interface CheckAnswer {
   check: Check;
-  signals: Signal[];
+  signals: CheckSignal[];
+  alerts: AlertSummary[];
+}
+
+/** Each rule this check broke, with its severity and its words from the summary of the alert it joined. */
+function rulesBroken(answer: CheckAnswer): { rule: string; severity: 'act' | 'watch'; words: string }[] {
+  return answer.signals.flatMap((group: CheckSignal) => {
+    const alert = answer.alerts.find((a) => a.id === group.alertId);
+    return group.rules.map((r) => ({ ...r, words: alert?.ruleWords[alert.rules.indexOf(r.rule)] ?? r.rule }));
+  });
 }
 
 const state: {
@@ -362,9 +371,10 @@ async function showResult(answer: CheckAnswer, wasWaiting: boolean): Promise<voi
   if (wasWaiting) lines.push(el('p', { class: 'muted' }, `This check was keyed while offline and has now been sent (taken ${clock(c.takenAt, state.plant.timeZone)}).`));
   if (c.belowT2 > 0) lines.push(el('p', {}, `✕ ${c.belowT2} pack${c.belowT2 > 1 ? 's' : ''} below T2: must not be sold. Set ${c.belowT2 > 1 ? 'them' : 'it'} aside and tell the supervisor.`));
   else if (c.belowT1 > 0) lines.push(el('p', {}, `▼ ${c.belowT1} pack${c.belowT1 > 1 ? 's' : ''} below T1.`));
-  const act = answer.signals.some((s) => s.severity === 'act');
-  for (const s of answer.signals.filter((x) => x.rule !== 'pack-below-t2')) {
-    lines.push(el('p', {}, `${s.severity === 'act' ? '■' : '▲'} Rule ${s.rule}: ${s.severity === 'act' ? 'tell the supervisor now.' : 'tell the supervisor.'}`));
+  const broken = rulesBroken(answer);
+  const act = broken.some((s) => s.severity === 'act');
+  for (const s of broken.filter((x) => x.rule !== 'pack-below-t2')) {
+    lines.push(el('p', {}, `${s.severity === 'act' ? '■' : '▲'} ${s.words}: ${s.severity === 'act' ? 'tell the supervisor now.' : 'tell the supervisor.'}`));
   }
   if (answer.signals.length === 0 && c.belowT1 === 0) lines.push(el('p', {}, '● Nothing fired: carry on.'));
   if (status?.nextCheckDue) lines.push(el('p', {}, `Next check due at ${clock(status.nextCheckDue, state.plant.timeZone)}.`));

@@ -77,6 +77,14 @@ export interface Signal {
   size: { unit: number; sigma: number | null } | null;
 }
 
+/** A check's signals for one alert, as the check's answer gives them (the check and its time are the answer's own). */
+export interface CheckSignal {
+  alertId: number;
+  direction: 'up' | 'down' | null;
+  size: { unit: number; sigma: number | null } | null;
+  rules: { rule: string; severity: 'act' | 'watch'; onsetCheckId: number | null }[];
+}
+
 export interface Alert {
   id: number;
   lineId: number;
@@ -87,6 +95,7 @@ export interface Alert {
   rules: string[];
   ruleWords: string[];
   signals: Signal[];
+  signalCount: number;
   openedAt: string;
   updatedAt: string;
   onset: { at: string | null; checkId: number | null };
@@ -95,6 +104,9 @@ export interface Alert {
   acknowledged: { by: string; at: string; note: string } | null;
   resolved: { by: string; at: string; cause: string; action: string } | null;
 }
+
+/** What a check's answer and its live message say of an alert: no signals and no notes (the full alert is on GET /api/alerts/:id). */
+export type AlertSummary = Omit<Alert, 'signals' | 'acknowledged' | 'resolved'> & { signalCount: number };
 
 export interface Check {
   id: number;
