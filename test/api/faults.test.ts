@@ -45,18 +45,27 @@ describe('a full disk', () => {
     t.db.pragma(`max_page_count = ${pages}`);
     const before = snapshot(t);
     let refused = null;
+    let refusedClientId = '';
+    let accepted = 0;
     // fill the last free pages, then the next check cannot be written
     for (let i = 0; i < 200 && !refused; i += 1) {
       t.clock.advance(60_000);
-      const res = await postCheck(t, lineId, weightsWithMean(503), { note: 'x'.repeat(400) });
-      if (res.statusCode !== 201) refused = res;
+      const clientId = randomUUID();
+      const res = await postCheck(t, lineId, weightsWithMean(503), { note: 'x'.repeat(400), clientId });
+      if (res.statusCode === 201) accepted += 1;
+      else {
+        refused = res;
+        refusedClientId = clientId;
+      }
     }
     expect(refused?.statusCode).toBe(503);
     expect(refused?.json().message).toMatch(/disk is full: nothing was written/);
     const after = snapshot(t);
     // every check that got in has its packs; none is half-written
     expect(countRows(t.db, 'packs')).toBe(5 * countRows(t.db, 'checks'));
-    expect(after.checks ?? 0).toBeGreaterThanOrEqual(before.checks ?? 0);
+    // exactly the acknowledged checks were stored, and not the refused one
+    expect(after.checks).toBe((before.checks ?? 0) + accepted);
+    expect(t.db.prepare('SELECT COUNT(*) AS n FROM checks WHERE client_id = ?').get(refusedClientId)).toEqual({ n: 0 });
     t.db.pragma('max_page_count = 1073741823');
     t.clock.advance(60_000);
     expect((await postCheck(t, lineId, weightsWithMean(503))).statusCode).toBe(201);

@@ -24,6 +24,9 @@ describe('capability intervals', () => {
     // source: Montgomery, Introduction to SQC, capability chapter (from memory; CHECK-VALUES.md)
     const r = capability(50, 1.75, 20, 19, 38, 62);
     expect(r.cp?.value).toBeCloseTo(2.29, 2);
+    // what capability() itself returns, from the unrounded Ĉp = 2.2857: the book's interval to its rounding
+    expect(Math.abs((r.cp?.ci95[0] ?? 0) - 1.57)).toBeLessThan(0.01);
+    expect(Math.abs((r.cp?.ci95[1] ?? 0) - 3.01)).toBeLessThan(0.01);
     // the book carries Ĉp = 2.29, rounded, into the interval
     const [lo, hi] = cpInterval(2.29, 19);
     expect(lo).toBeCloseTo(1.57, 2);

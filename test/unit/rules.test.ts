@@ -64,15 +64,28 @@ describe('mean-chart rules', () => {
     expect(firstFiring('run-one-side', z, 9)).toBeNull();
     expect(firstFiring('run-one-side', z, 8)?.at).toBe(7);
   });
-  it('when every rule is listed, then the catalogue names each with a default severity and on/off state', () => {
-    // source: the defaults of this project's issue on shift detection (common practice, no source)
+  it('when every rule is listed, then the catalogue has exactly the rules of the design, each with its default severity and on/off state', () => {
+    // the defaults, written out from the shift-detection design (common practice, no source): the four
+    // Western Electric zone rules on, the other four Nelson patterns off, the detectors and pack checks act
+    const DESIGN: Record<string, [string, boolean]> = {
+      'beyond-3-sigma': ['act', true],
+      'two-of-three-beyond-2-sigma': ['watch', true],
+      'four-of-five-beyond-1-sigma': ['watch', true],
+      'run-one-side': ['watch', true],
+      trend: ['watch', false],
+      sawtooth: ['watch', false],
+      'hugging-centre': ['watch', false],
+      'avoiding-centre': ['watch', false],
+      'spread-up': ['act', true],
+      'pack-below-t2': ['act', true],
+      'ewma-shift': ['act', true],
+      'cusum-shift': ['act', true],
+    };
     const byId = Object.fromEntries(RULE_CATALOGUE.map((r) => [r.id, [r.defaultSeverity, r.defaultEnabled]]));
-    expect(byId['beyond-3-sigma']).toEqual(['act', true]);
-    expect(byId['two-of-three-beyond-2-sigma']).toEqual(['watch', true]);
-    expect(byId.trend).toEqual(['watch', false]);
-    expect(byId['spread-up']).toEqual(['act', true]);
-    expect(byId['cusum-shift']).toEqual(['act', true]);
-    expect(MEAN_RULE_IDS).toHaveLength(8);
+    expect(byId).toEqual(DESIGN);
+    // the eight mean-chart rules are the eight Nelson (1984) tests, each with words for the screens
+    expect([...MEAN_RULE_IDS].sort()).toEqual(Object.keys(DESIGN).slice(0, 8).sort());
+    for (const r of RULE_CATALOGUE) expect(r.words.length, r.id).toBeGreaterThan(2);
   });
 });
 
