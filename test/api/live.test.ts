@@ -38,13 +38,23 @@ function connect(port: number, cookie: string, since?: number) {
   return { ws, messages, opened };
 }
 
-const until = async (test: () => boolean, ms = 3000) => {
-  const end = Date.now() + ms;
-  while (!test()) {
-    if (Date.now() > end) throw new Error('timed out waiting');
-    await new Promise((r) => setTimeout(r, 10));
-  }
-};
+/** Resolves once `test()` holds, checking it again each time `source` emits `event` (no polling). */
+function when(source: EventEmitter, event: string, test: () => boolean, ms = 3000): Promise<void> {
+  if (test()) return Promise.resolve();
+  return new Promise((resolve, reject) => {
+    const timer = setTimeout(() => {
+      source.off(event, check);
+      reject(new Error(`timed out waiting after ${event}`));
+    }, ms);
+    function check() {
+      if (!test()) return;
+      clearTimeout(timer);
+      source.off(event, check);
+      resolve();
+    }
+    source.on(event, check);
+  });
+}
 
 describe('the live feed', () => {
   it('when a client resumes, then it first gets everything after its seq, in order, then follows live', async () => {
@@ -58,10 +68,10 @@ describe('the live feed', () => {
     const c = connect(port, t.cookies.supervisor);
     await c.opened;
     c.ws.send(JSON.stringify({ type: 'resume', since: 1 }));
-    await until(() => c.messages.some((m) => m.type === 'resumed'));
+    await when(c.ws, 'message', () => c.messages.some((m) => m.type === 'resumed'));
     t.clock.advance(3_600_000);
     await postCheck(t, lineId, weightsWithMean(503));
-    await until(() => c.messages.filter((m) => m.type === 'check').length === 4);
+    await when(c.ws, 'message', () => c.messages.filter((m) => m.type === 'check').length === 4);
     const numbered = c.messages.filter((m) => !['hello', 'resumed'].includes(m.type)).map((m) => m.seq);
     const stored = (t.db.prepare('SELECT seq FROM live_messages WHERE seq > 1 ORDER BY seq').all() as { seq: number }[]).map((r) => r.seq);
     expect(numbered).toEqual(stored);
@@ -96,11 +106,11 @@ describe('the live feed', () => {
     for (let round = 0; round < 100; round += 1) {
       const c = connect(port, t.cookies.operator, last);
       await c.opened;
-      await until(() => c.messages.some((m) => m.type === 'resumed' || m.type === 'resync'));
+      await when(c.ws, 'message', () => c.messages.some((m) => m.type === 'resumed' || m.type === 'resync'));
       t.clock.advance(60_000);
       await postCheck(t, lineId, weightsWithMean(503 + (round % 7) * 0.1));
       posted += 1;
-      await until(() => c.messages.some((m) => m.type === 'check' && m.seq > last));
+      await when(c.ws, 'message', () => c.messages.some((m) => m.type === 'check' && m.seq > last));
       for (const m of c.messages) if (!['hello', 'resumed', 'resync'].includes(m.type)) seen.push(m.seq);
       last = Math.max(last, ...c.messages.map((m) => m.seq));
       c.ws.terminate();
@@ -111,7 +121,7 @@ describe('the live feed', () => {
     }
     const c = connect(port, t.cookies.operator, last);
     await c.opened;
-    await until(() => c.messages.some((m) => m.type === 'resumed'));
+    await when(c.ws, 'message', () => c.messages.some((m) => m.type === 'resumed'));
     for (const m of c.messages) if (!['hello', 'resumed'].includes(m.type)) seen.push(m.seq);
     c.ws.close();
     const stored = (t.db.prepare('SELECT seq FROM live_messages ORDER BY seq').all() as { seq: number }[]).map((r) => r.seq);
@@ -176,7 +186,7 @@ describe('the hub’s limits', () => {
     };
     hub.attach(silent as unknown as WebSocket, 0);
     hub.attach(lively as unknown as WebSocket, 0);
-    await until(() => silent.terminated, 1000);
+    await when(silent, 'close', () => silent.terminated, 1000);
     expect(lively.terminated).toBe(false);
     expect(lively.pings).toBeGreaterThanOrEqual(2);
     hub.close();

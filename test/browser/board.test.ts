@@ -17,7 +17,8 @@ import { ARTIFACTS, HAVE_CHROMIUM, launchBrowser } from './harness.js';
 const dir = mkdtempSync(join(tmpdir(), 'heft-board-'));
 const file = join(dir, 'demo.db');
 const config = parseConfig([], {}, { db: file, timeZone: 'Europe/London', plantName: 'Board test plant' });
-const port = 23000 + Math.floor(Math.random() * 20000);
+// the system picks a free port the first time; a restart listens on the same one again
+let port = 0;
 let db: Db;
 let app: FastifyInstance;
 let wall: BrowserContext;
@@ -29,7 +30,10 @@ async function startApp(listen: boolean): Promise<FastifyInstance> {
   db = openDatabase(file);
   migrate(db);
   const a = await buildApp({ db, clock: new FollowingClock(), config });
-  if (listen) await a.listen({ port, host: '127.0.0.1' });
+  if (listen) {
+    await a.listen({ port, host: '127.0.0.1' });
+    port = (a.server.address() as { port: number }).port;
+  }
   return a;
 }
 
@@ -98,7 +102,7 @@ describe.skipIf(!HAVE_CHROMIUM)('the wall board', () => {
     wallPage = await openBoard(wall, `/board?token=${encodeURIComponent(boardToken)}`);
     expect(new URL(wallPage.url()).search).toBe(''); // the token left the address bar
     await expect.poll(() => wallPage.locator('.tile').count()).toBe(3);
-    await wallPage.waitForTimeout(1500); // the live feed has connected
+    await wallPage.locator('#connection[data-state="connected"]').waitFor({ state: 'attached' });
     const posted = Date.now();
     const ids = await scaleCheck(1, beyond(1, 4));
     alertId = ids[0] as number;

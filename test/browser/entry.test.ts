@@ -126,7 +126,8 @@ describe.skipIf(!HAVE_CHROMIUM)('the operator’s entry page', () => {
     await expect.poll(() => page.locator('#queue').isVisible()).toBe(false);
     const last = t.db.prepare('SELECT mean FROM checks ORDER BY id DESC LIMIT 2').all() as { mean: number }[];
     expect(last.map((r) => r.mean).sort()).toEqual([502.2, 503.2]);
-    await page.waitForTimeout(500);
+    // once the page has nothing more in flight, nothing more was sent
+    await page.waitForLoadState('networkidle');
     expect(currentChecks()).toBe(before + 2);
     await page.close();
   });

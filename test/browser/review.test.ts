@@ -69,7 +69,7 @@ describe.skipIf(!HAVE_CHROMIUM)('the quality manager’s review', () => {
     await page.click('#range-form button[type="submit"]');
     await expect.poll(() => page.locator('#report-title').innerText()).toContain(first);
     await expect.poll(() => page.locator('.line-report').count()).toBe(3);
-    await page.waitForTimeout(500); // charts drawn
+    await expect.poll(() => page.locator('.line-report .uplot').count()).toBeGreaterThanOrEqual(3); // charts drawn
     const onScreen = await page.locator('#lines').innerText();
     expect(onScreen).toContain('auger screw worn on filler head 3');
     expect(onScreen).toContain('dosing valve drifting as the hopper emptied');

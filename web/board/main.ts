@@ -384,6 +384,8 @@ async function onMessage(m: LiveMessage): Promise<void> {
 
 function showConnection(): void {
   const box = $('connection');
+  // the state as data too: tests and monitoring wait on it rather than on a timer
+  box.dataset.state = board.connected ? 'connected' : 'down';
   if (board.connected) {
     box.textContent = '';
     box.className = 'connection';
