@@ -21,3 +21,13 @@ export function openDatabase(file: string, options: OpenOptions = {}): Db {
   db.pragma(`busy_timeout = ${Math.max(0, Math.floor(options.busyTimeoutMs ?? 5000))}`);
   return db;
 }
+
+/**
+ * A read-only connection of its own for a long read (a streamed export), so it never holds the
+ * writer's connection; it waits out a writer's lock like the others.
+ */
+export function openReadOnly(file: string, options: OpenOptions = {}): Db {
+  const db = new Database(file, { readonly: true, fileMustExist: true });
+  db.pragma(`busy_timeout = ${Math.max(0, Math.floor(options.busyTimeoutMs ?? 5000))}`);
+  return db;
+}

@@ -1,4 +1,3 @@
-import Database from 'better-sqlite3';
 import { stringify } from 'csv-stringify';
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
@@ -6,6 +5,7 @@ import { Readable } from 'node:stream';
 import { z } from 'zod';
 import { QUALITY_UP } from '../auth/access.js';
 import type { HeftContext } from '../context.js';
+import { openReadOnly } from '../db/database.js';
 import { resolveRange } from '../review/range.js';
 import { idParam, reportRange } from '../shared/schemas.js';
 import { EXPORTS, spreadsheetSafe, type ExportKind } from './columns.js';
@@ -31,7 +31,7 @@ export const exportsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fa
       const [kind, format] = req.params.file.split('.') as [ExportKind, 'csv' | 'json'];
       const { from, to } = resolveRange(req.query, ctx.clock.now(), ctx.config.timeZone);
       const spec = EXPORTS[kind];
-      const reader = new Database(ctx.db.name, { readonly: true, fileMustExist: true });
+      const reader = openReadOnly(ctx.db.name, { busyTimeoutMs: ctx.config.busyTimeoutMs });
       const rows = spec.rows(reader, { from, to, lineId: req.query.lineId ?? null }, ctx.config.timeZone);
       const close = () => {
         if (reader.open) reader.close();

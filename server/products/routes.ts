@@ -4,10 +4,11 @@ import { z } from 'zod';
 import { ADMIN, BOARD_READ, requireActor } from '../auth/access.js';
 import { actorName } from '../auth/service.js';
 import type { HeftContext } from '../context.js';
-import { badField, conflict, notFound } from '../errors.js';
+import { badField, notFound } from '../errors.js';
 import { code, freeText, idParam } from '../shared/schemas.js';
 import { RULE_CATALOGUE, type RuleId } from '../stats/rules.js';
 import type { Product, ProductFields } from './repository.js';
+import { createProductService } from './service.js';
 
 const ruleIds = RULE_CATALOGUE.map((r) => r.id) as [RuleId, ...RuleId[]];
 const weight = z.number().finite().positive().max(1_000_000);
@@ -94,7 +95,8 @@ export function productView(p: Product) {
 
 export const productsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fastify, { ctx }) => {
   const app = fastify.withTypeProvider<ZodTypeProvider>();
-  const { repos, monitor, clock, db } = ctx;
+  const { repos } = ctx;
+  const products = createProductService(ctx);
 
   app.get('/api/products', { config: { roles: BOARD_READ } }, async () => ({ products: repos.products.list().map(productView) }));
 
@@ -105,33 +107,12 @@ export const productsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (f
   });
 
   app.post('/api/products', { config: { roles: ADMIN }, schema: { body: productBody } }, async (req, reply) => {
-    const actor = actorName(requireActor(req));
-    const fields = toFields(req.body);
-    if (repos.products.getByCode(fields.code)) throw conflict(`a product with code ${fields.code} exists already`);
-    const now = clock.now();
-    const product = db.transaction(() => {
-      const created = repos.products.create(fields, now);
-      repos.audit.record({ at: now, actor, action: 'product.create', entity: 'product', entityId: created.id, after: fields });
-      return created;
-    }).immediate();
+    const product = products.create(toFields(req.body), actorName(requireActor(req)));
     return reply.code(201).send({ product: productView(product) });
   });
 
   app.patch('/api/products/:productId', { config: { roles: ADMIN }, schema: { params: productParams, body: productPatch } }, async (req) => {
-    const actor = actorName(requireActor(req));
-    const before = repos.products.get(req.params.productId);
-    if (!before) throw notFound(`product ${req.params.productId}`);
-    const merged = { ...productView(before), ...req.body } as ProductInput;
-    const fields = toFields(merged, before);
-    const clash = repos.products.getByCode(fields.code);
-    if (clash && clash.id !== before.id) throw conflict(`a product with code ${fields.code} exists already`);
-    const now = clock.now();
-    const product = db.transaction(() => {
-      const updated = repos.products.update(before.id, fields, now);
-      repos.audit.record({ at: now, actor, action: 'product.update', entity: 'product', entityId: before.id, before: productView(before), after: fields });
-      return updated;
-    }).immediate();
-    monitor.reloadLinesRunning(product.id);
-    return { product: productView(product) };
+    const merge = (before: Product) => toFields({ ...productView(before), ...req.body } as ProductInput, before);
+    return { product: productView(products.update(req.params.productId, merge, productView, actorName(requireActor(req)))) };
   });
 };
