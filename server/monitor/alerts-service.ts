@@ -51,6 +51,8 @@ export class AlertsService {
   /** Writes a check's signals, opening an alert per new kind and direction or joining the open one. */
   storeSignals(runtime: LineRuntime, openAlerts: Map<string, StoredAlert>, points: readonly SegmentPoint[], pending: readonly PendingSignal[], check: { id: number; takenAt: number }, now: number): StoredSignals {
     const out: StoredSignals = { signals: [], touched: new Map(), opened: new Set() };
+    // several rules of one check join the same alert: it is written once, as it ends up
+    const changed = new Set<number>();
     for (const p of pending) {
       const onset = pointAt(points, p.onsetIndex);
       const onsetCheckId = onset?.checkId ?? check.id;
@@ -81,12 +83,13 @@ export class AlertsService {
         out.opened.add(alert.id);
       } else {
         alert = joined(existing, p, { onsetAt, onsetCheckId, ...episode }, check.id, now);
-        this.alerts.update(alert);
+        changed.add(alert.id);
       }
       openAlerts.set(key, alert);
       out.touched.set(alert.id, alert);
       out.signals.push(this.alerts.insertSignal({ alertId: alert.id, checkId: check.id, rule: p.rule, severity: p.severity, direction: p.direction, at: check.takenAt, size: p.size, onsetCheckId }));
     }
+    for (const id of changed) this.alerts.update(out.touched.get(id) as StoredAlert);
     return out;
   }
 
