@@ -5,6 +5,7 @@ import { api, ApiError, getPlant, signIn, signOut, whoAmI, type Alert, type Aler
 import { meanChart, meanChartData, spreadChart, type ChartPoint } from '../shared/charts.js';
 import { alertTitle, clock, dateTime, duration, el, overUnder, weight } from '../shared/format.js';
 import { LiveClient, type LiveMessage } from '../shared/live.js';
+import { dueWords, shiftSizeWords as sizeWords, twoToneChime } from './words-and-sound.js';
 
 const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as T;
 const MAX_POINTS = 60;
@@ -86,13 +87,6 @@ function lineState(v: LineView): 'steady' | 'watch' | 'act' | 'idle' {
   return open.length > 0 ? 'watch' : 'steady';
 }
 
-function sizeWords(a: Alert, unit: 'g' | 'kg'): string {
-  if (!a.size) return '';
-  const sign = a.size.unit > 0 ? '+' : '−';
-  const sigma = a.size.sigma === null ? '' : ` (${sign}${Math.abs(a.size.sigma).toFixed(1)}σ)`;
-  return `${sign}${weight(Math.abs(a.size.unit), unit)}${sigma}`;
-}
-
 function alertItem(a: Alert, v: LineView, withButtons: boolean): HTMLElement {
   const unit = v.status?.product?.unit ?? 'g';
   const age = duration(Date.now() - Date.parse(a.openedAt));
@@ -129,13 +123,6 @@ function alertItem(a: Alert, v: LineView, withButtons: boolean): HTMLElement {
   return item;
 }
 
-function dueWords(v: LineView): { text: string; late: boolean } {
-  const due = v.status?.nextCheckDue;
-  if (!due) return { text: '', late: false };
-  const left = Date.parse(due) - Date.now();
-  return left >= 0 ? { text: `next check in ${duration(left)}`, late: false } : { text: `check overdue by ${duration(-left)}`, late: true };
-}
-
 function renderTile(v: LineView): HTMLElement {
   const state = lineState(v);
   const p = v.status?.product ?? null;
@@ -148,7 +135,7 @@ function renderTile(v: LineView): HTMLElement {
   if (p && last) tile.append(el('div', { class: 'mean' }, `last mean ${weight(last.mean, p.unit)} · ${overUnder(last.mean - p.target, p.unit)} target`));
   const chartBox = el('div', { class: 'chart' });
   tile.append(chartBox);
-  const due = dueWords(v);
+  const due = dueWords(v.status?.nextCheckDue);
   tile.append(el('div', { class: `due${due.late ? ' late' : ''}`, 'data-due': '' }, due.text));
   const list = el('div', { class: 'alert-list' });
   for (const a of visibleAlerts(v).slice(0, 3)) list.append(alertItem(a, v, true));
@@ -331,27 +318,9 @@ $('signout').addEventListener('click', async () => {
 function applyAlert(alert: Alert | AlertSummary): void {
   const v = board.lines.get(alert.lineId);
   if (!v) return;
-  const known = v.alerts.get(alert.id);
-  v.alerts.set(alert.id, { signals: [], acknowledged: null, resolved: null, ...known, ...alert });
+  v.alerts.set(alert.id, { signals: [], acknowledged: null, resolved: null, ...v.alerts.get(alert.id), ...alert });
   if (v.status) v.status.openAlerts = [...v.alerts.values()].filter((a) => a.state !== 'resolved');
   refreshTile(v);
-}
-
-function beep(): void {
-  if (!board.sound) return;
-  const ctx = new AudioContext();
-  for (const [start, freq] of [
-    [0, 880],
-    [0.35, 660],
-  ] as const) {
-    const osc = ctx.createOscillator();
-    const gain = ctx.createGain();
-    osc.frequency.value = freq;
-    gain.gain.value = 0.2;
-    osc.connect(gain).connect(ctx.destination);
-    osc.start(ctx.currentTime + start);
-    osc.stop(ctx.currentTime + start + 0.25);
-  }
 }
 
 async function onMessage(m: LiveMessage): Promise<void> {
@@ -373,7 +342,7 @@ async function onMessage(m: LiveMessage): Promise<void> {
     }
     refreshTile(v);
   } else if (m.type === 'alert-opened' || m.type === 'alert-updated') {
-    if (m.type === 'alert-opened') beep();
+    if (m.type === 'alert-opened' && board.sound) twoToneChime();
     applyAlert(m.alert as Alert | AlertSummary);
   } else if (m.type === 'line-status') {
     v = await loadLine(v.line);
@@ -415,7 +384,7 @@ $('sound').addEventListener('click', () => {
   localStorage.setItem('heft.board.sound', board.sound ? 'on' : 'off');
   $('sound').textContent = board.sound ? 'Sound on' : 'Sound off';
   $('sound').setAttribute('aria-pressed', String(board.sound));
-  beep();
+  if (board.sound) twoToneChime();
 });
 
 $('filter-line').addEventListener('change', renderTiles);
@@ -470,7 +439,7 @@ async function start(): Promise<void> {
     for (const v of board.lines.values()) {
       const due = v.tile?.querySelector('[data-due]');
       if (due) {
-        const d = dueWords(v);
+        const d = dueWords(v.status?.nextCheckDue);
         due.textContent = d.text;
         due.className = `due${d.late ? ' late' : ''}`;
       }
