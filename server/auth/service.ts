@@ -3,7 +3,7 @@ import type { Clock } from '../clock.js';
 import type { Db } from '../db/database.js';
 import { badField, conflict, DomainError, notFound } from '../errors.js';
 import type { AuthRepository, MachineToken, TokenKind, User } from './repository.js';
-import { ADDRESS_LOCK_FAILURES, afterFailure, current, EVERY_USER, FORGET_AFTER_MS, gate, PAIR_LOCK_FAILURES } from './throttle.js';
+import { ADDRESS_LOCK_FAILURES, afterFailure, current, EVERY_USER, FORGET_AFTER_MS, gate, PAIR_LOCK_FAILURES, throttleKey } from './throttle.js';
 import { createThrottleRepository, type FailureRow } from './throttle-repository.js';
 import { hashSecret, randomToken, secretProblem, tokenHash, verifySecret, type Role } from './secrets.js';
 
@@ -74,7 +74,7 @@ export function createAuthService(o: AuthServiceOptions) {
      * The same user from another address is never held up (throttle.ts has the figures).
      */
     async signIn(username: string, secret: string, address: string): Promise<{ sessionId: string; user: User }> {
-      const name = username.trim().toLowerCase();
+      const name = throttleKey(username);
       const before = clock.now();
       const held = gate(current(throttle.get(name, address), before), current(throttle.get(EVERY_USER, address), before), before);
       if (!held.open) throw refusal(held.kind, held.until, before);
@@ -102,7 +102,7 @@ export function createAuthService(o: AuthServiceOptions) {
 
     /** Clears the failure counts (and so the locks) of a username, an address, or a username at an address. */
     clearSignInLocks(target: { username?: string; address?: string }, by: string): number {
-      const name = target.username?.trim().toLowerCase() ?? null;
+      const name = target.username === undefined ? null : throttleKey(target.username);
       const address = target.address ?? null;
       if (name === null && address === null) throw badField('username', 'name a username, an address, or both');
       const now = clock.now();

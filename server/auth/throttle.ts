@@ -7,6 +7,12 @@
 /** The username under which an address's failures over every username are counted. */
 export const EVERY_USER = '*';
 
+/** The key a typed username is counted under: never the address-wide key, whatever was typed. */
+export function throttleKey(username: string): string {
+  const name = username.trim().toLowerCase();
+  return name === EVERY_USER ? `${name} (as typed)` : name;
+}
+
 /** Failures of one username from one address before each further try must wait. */
 export const FREE_FAILURES = 3;
 /** The first wait, doubled with each further failure. */

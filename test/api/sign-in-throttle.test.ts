@@ -118,6 +118,16 @@ describe('sign-in throttling', () => {
     }
   });
 
+  heftTest('when someone types the address-wide key as a username, then it is counted as a username like any other', async ({ heft: t }) => {
+    await t.app.heft.auth.addUser({ username: 'ana', displayName: 'Ana', role: 'operator', secret: '4321' }, 'test');
+    for (let i = 0; i < 3; i += 1) expect((await signIn(t, '*', `00${i}`, TABLET)).statusCode).toBe(401);
+    // three failures counted once each on the address, not twice: ana at the same tablet is not held up
+    expect((await signIn(t, 'ana', '4321', TABLET)).statusCode).toBe(200);
+    const locks = (await t.app.inject({ method: 'GET', url: '/api/sign-in-locks', headers: { cookie: t.cookies.supervisor } })).json().locks as { username: string | null; failures: number }[];
+    expect(locks.find((l) => l.username === null)?.failures).toBe(3);
+    expect(locks.find((l) => l.username === '* (as typed)')?.failures).toBe(3);
+  });
+
   heftTest('when the right PIN follows two wrong ones, then the count starts again', async ({ heft: t }) => {
     await t.app.heft.auth.addUser({ username: 'ana', displayName: 'Ana', role: 'operator', secret: '4321' }, 'test');
     for (let round = 0; round < 3; round += 1) {
