@@ -5,9 +5,9 @@
  */
 import { spawn, type ChildProcess } from 'node:child_process';
 import { randomUUID } from 'node:crypto';
-import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import http from 'node:http';
-import { tmpdir } from 'node:os';
+import { cpus, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { createAuditRepository } from '../server/audit/repository.js';
 import { createAuthRepository } from '../server/auth/repository.js';
@@ -28,6 +28,13 @@ const dir = mkdtempSync(join(tmpdir(), 'heft-bench-'));
 let nextPort = 31000 + Math.floor(Math.random() * 10000);
 const rows: { figure: string; heft: string; floor: string; ratio: string; note: string }[] = [];
 const say = (s: string) => process.stdout.write(`${s}\n`);
+
+// The servers (Heft and the floors) on core 0, the load generators and clients on core 1, where
+// taskset and a second core exist: neither then takes CPU from the other.
+const PIN = existsSync('/usr/bin/taskset') && cpus().length >= 2;
+function node(side: 'server' | 'load', args: string[]): [string, string[]] {
+  return PIN ? ['/usr/bin/taskset', ['-c', side === 'server' ? '0' : '1', process.execPath, ...args]] : [process.execPath, args];
+}
 
 const median = (xs: number[]) => [...xs].sort((a, b) => a - b)[Math.floor(xs.length / 2)] as number;
 const spread = (xs: number[], d = 0) => `${Math.min(...xs).toFixed(d)}–${Math.max(...xs).toFixed(d)}`;
@@ -109,7 +116,7 @@ function waitFor(child: ChildProcess, text: string, ms = 120_000): Promise<void>
 async function startHeft(file: string): Promise<{ child: ChildProcess; port: number; startupMs: number }> {
   const port = nextPort++;
   const started = performance.now();
-  const child = spawn(process.execPath, ['--import', 'tsx', 'server/main.ts', '--db', file, '--port', String(port), '--log-level', 'silent'], { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'] });
+  const child = spawn(...node('server', ['--import', 'tsx', 'server/main.ts', '--db', file, '--port', String(port), '--log-level', 'silent']), { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'] });
   await waitFor(child, 'Heft at');
   return { child, port, startupMs: performance.now() - started };
 }
@@ -124,7 +131,7 @@ async function stop(child: ChildProcess): Promise<void> {
 
 function run(script: string, args: string[]): Promise<string> {
   return new Promise((resolve, reject) => {
-    const child = spawn(process.execPath, ['--import', 'tsx', script, ...args], { cwd: ROOT, stdio: ['ignore', 'pipe', 'inherit'] });
+    const child = spawn(...node('load', ['--import', 'tsx', script, ...args]), { cwd: ROOT, stdio: ['ignore', 'pipe', 'inherit'] });
     let out = '';
     child.stdout.on('data', (d: Buffer) => (out += d.toString()));
     child.on('exit', (code) => (code === 0 ? resolve(out) : reject(new Error(`${script} exited ${code}: ${out}`))));
@@ -167,7 +174,7 @@ async function ingest(small: string, token: string): Promise<void> {
   say('ingest: floor (bare Fastify + zod + one FULL insert per request) and Heft, 10 and 50 connections');
   const floorFile = join(dir, 'floor.db');
   const floorPort = nextPort++;
-  const floor = spawn(process.execPath, ['--import', 'tsx', 'bench/floor.ts', floorFile, String(floorPort)], { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'] });
+  const floor = spawn(...node('server', ['--import', 'tsx', 'bench/floor.ts', floorFile, String(floorPort)]), { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'] });
   await waitFor(floor, 'floor ready');
   const heft = await startHeft(small);
   for (const conns of [10, 50]) {
@@ -281,7 +288,7 @@ async function startup(small: string, big: string): Promise<void> {
 
 /** N WebSocket clients in a process of their own; resolves once all are connected, then gives the last arrival. */
 async function liveClients(url: string, n: number, token: string): Promise<{ lastArrival: Promise<number> }> {
-  const child = spawn(process.execPath, ['--import', 'tsx', 'bench/clients.ts', url, String(n), token, 'alert-'], { cwd: ROOT, stdio: ['ignore', 'pipe', 'inherit'] });
+  const child = spawn(...node('load', ['--import', 'tsx', 'bench/clients.ts', url, String(n), token, 'alert-']), { cwd: ROOT, stdio: ['ignore', 'pipe', 'inherit'] });
   let out = '';
   child.stdout.on('data', (d: Buffer) => (out += d.toString()));
   const exited = new Promise<void>((done) => child.on('exit', () => done()));
@@ -306,7 +313,7 @@ async function fanout(small: string, checksToken: string, boardToken: string): P
   const heft = await startHeft(small);
   const floorPort = nextPort++;
   const messageBytes = 2500;
-  const floor = spawn(process.execPath, ['--import', 'tsx', 'bench/ws-floor.ts', String(floorPort), String(messageBytes)], { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'] });
+  const floor = spawn(...node('server', ['--import', 'tsx', 'bench/ws-floor.ts', String(floorPort), String(messageBytes)]), { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'] });
   await waitFor(floor, 'ws floor ready');
   let line = 1;
   let rssWithClients = 0;
@@ -420,7 +427,7 @@ if (!onlyIngest) {
 const header = `| figure | Heft | floor | ratio | note |\n| --- | --- | --- | --- | --- |`;
 const table = [header, ...rows.map((r) => `| ${r.figure} | ${r.heft} | ${r.floor} | ${r.ratio} | ${r.note} |`)].join('\n');
 const when = new Date().toISOString();
-const machine = `${process.version}, ${(await import('node:os')).cpus().length} cores`;
+const machine = `${process.version}, ${cpus().length} cores${PIN ? ', servers on core 0, load on core 1' : ''}`;
 say(`\n${table}\n\nmedians of ${ROUNDS} rounds (min–max); ratios are Heft ÷ floor (for times: floor ÷ Heft, so above 1 is better than the floor); ${when}, ${machine}; ${((performance.now() - began) / 1000).toFixed(0)} s in all`);
 if (!onlyIngest) writeFileSync(join(ROOT, 'bench/results.md'), `# Latest bench run\n\n${when}, ${machine}\n\n${table}\n\nMedians of ${ROUNDS} rounds (min–max). Ratios: Heft ÷ floor; for times and memory floor ÷ Heft, so above 1 means better than the floor.\n`);
 rmSync(dir, { recursive: true, force: true });
