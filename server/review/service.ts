@@ -13,6 +13,9 @@ import { resolveRuleSet } from '../stats/rule-set.js';
 import { fTest, welchTest } from '../stats/two-sample.js';
 import { createReviewRepository, type CheckMoments } from './repository.js';
 
+/** A p-value in words for the comparison's sentence: `p = 0.0312`, or `p < 0.0001` below that. */
+const pWords = (p: number) => (p < 0.0001 ? 'p < 0.0001' : `p = ${p.toFixed(4)}`);
+
 export const MIN_CAPABILITY_CHECKS = 20;
 const MINUTE = 60_000;
 const DAY = 86_400_000;
@@ -185,8 +188,8 @@ export function createReviewService(ctx: HeftContext) {
       const dir = welch.difference < 0 ? 'fell' : 'rose';
       const [lo, hi] = welch.difference < 0 ? [-welch.ci95[1], -welch.ci95[0]] : welch.ci95;
       const words =
-        `From A to B the mean ${dir} ${Math.abs(welch.difference).toFixed(d)} ${u}, 95 % CI ${lo.toFixed(d)} to ${hi.toFixed(d)} ${u} (Welch's t = ${welch.t.toFixed(2)}, p = ${welch.p < 0.0001 ? '< 0.0001' : welch.p.toFixed(4)}). ` +
-        `The spread (sd) went from ${ma.sd.toFixed(d)} to ${mb.sd.toFixed(d)} ${u} (F = ${f.f.toFixed(2)}, p = ${f.p < 0.0001 ? '< 0.0001' : f.p.toFixed(4)}${f.p < 0.05 ? ', a clear change' : ', no clear change'}).`;
+        `From A to B the mean ${dir} ${Math.abs(welch.difference).toFixed(d)} ${u}, 95 % CI ${lo.toFixed(d)} to ${hi.toFixed(d)} ${u} (Welch's t = ${welch.t.toFixed(2)}, ${pWords(welch.p)}). ` +
+        `The spread (sd) went from ${ma.sd.toFixed(d)} to ${mb.sd.toFixed(d)} ${u} (F = ${f.f.toFixed(2)}, ${pWords(f.p)}${f.p < 0.05 ? ', a clear change' : ', no clear change'}).`;
       return { line: { id: line.id, code: line.code }, product: { id: product.id, code: product.code, unit: u }, a: ma, b: mb, welch, fTest: f, words };
     },
   };

@@ -1,8 +1,14 @@
+import stdlibNormalCdf from '@stdlib/stats-base-dists-normal-cdf';
 import jStat from 'jstat';
 
-/** Two-sided p-value of Student's t with df degrees of freedom: 2·(1 − F(|t|)), F from jstat's incomplete beta. */
+/**
+ * Two-sided p-value of Student's t with df degrees of freedom: 2·F(−|t|), which keeps its relative
+ * accuracy where 2·(1 − F(|t|)) would round to 0; far out (ν/(ν+t²) < 0.01) as I_{ν/(ν+t²)}(ν/2, ½)
+ * (Abramowitz & Stegun 26.7.1 with 26.5.2), which avoids the cancellation inside F at large |t|.
+ */
 export function studentTTwoSidedP(t: number, df: number): number {
-  const p = 2 * (1 - jStat.studentt.cdf(Math.abs(t), df));
+  const x = df / (df + t * t);
+  const p = x < 0.01 ? jStat.ibeta(x, df / 2, 0.5) : 2 * jStat.studentt.cdf(-Math.abs(t), df);
   return Math.min(1, Math.max(0, p));
 }
 
@@ -19,9 +25,9 @@ export function studentTQuantile(probability: number, df: number): number {
   return q;
 }
 
-/** Standard normal cumulative distribution Φ(z) (jstat, via the complementary error function). */
+/** Standard normal cumulative distribution Φ(z) = ½·erfc(−z/√2) (@stdlib, whose erfc keeps its relative accuracy far into the tails). */
 export function normalCdf(z: number): number {
-  return jStat.normal.cdf(z, 0, 1);
+  return stdlibNormalCdf(z, 0, 1);
 }
 
 /** Standard normal quantile Φ⁻¹(p) (jstat). */

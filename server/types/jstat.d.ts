@@ -12,6 +12,8 @@ declare module 'jstat' {
     centralF: ContinuousDistribution;
     gammaln(x: number): number;
     gammafn(x: number): number;
+    /** The regularised incomplete beta function I_x(a, b). */
+    ibeta(x: number, a: number, b: number): number;
   };
   export default jStat;
 }

@@ -79,6 +79,30 @@ describe("Student's t and the normal distribution", () => {
     expect(twoSided(3)).toBeCloseTo(0.0027, 6);
     expect(1 - normalCdf(3)).toBeCloseTo(0.0013499, 7);
   });
+
+  it('when z is far out, then Φ(z) keeps its relative accuracy: Φ(−8) = 6.220961e-16, Φ(−10) = 7.619853e-24', () => {
+    // source: Abramowitz & Stegun, Table 26.2 (far tail of the normal; from memory, to 7 figures)
+    const relative = (got: number, want: number) => Math.abs(got - want) / want;
+    expect(relative(normalCdf(-8), 6.220961e-16)).toBeLessThan(1e-6);
+    expect(relative(normalCdf(-10), 7.619853e-24)).toBeLessThan(1e-6);
+  });
+
+  it("when |t| is large, then Student's two-sided p is tiny but not 0, and matches the closed forms for 1 and 2 degrees of freedom", () => {
+    // closed forms of Student's t (common practice, no source; they follow from its density): ν = 1
+    // (Cauchy) p = (2/π)·atan(1/|t|); ν = 2: p = 1 − |t|/√(t²+2) = 2/(√(t²+2)·(√(t²+2)+|t|))
+    const relative = (got: number, want: number) => Math.abs(got - want) / want;
+    for (const t of [3, 30, 1e3, 1e8, -1e5]) {
+      expect(relative(studentTTwoSidedP(t, 1), (2 / Math.PI) * Math.atan(1 / Math.abs(t))), `ν 1, t ${t}`).toBeLessThan(1e-8);
+      const r = Math.sqrt(t * t + 2);
+      expect(relative(studentTTwoSidedP(t, 2), 2 / (r * (r + Math.abs(t)))), `ν 2, t ${t}`).toBeLessThan(1e-8);
+    }
+    // for very many degrees of freedom t is normal: 2Φ(−9) = 2.257177e-19 (Abramowitz & Stegun 26.2, from memory)
+    expect(relative(studentTTwoSidedP(9, 1e9), 2.257177e-19)).toBeLessThan(1e-3);
+    // a Welch t of −12.95 on 137 df (the size of the e-Handbook's AUTO83B comparison): small, never 0
+    const p = studentTTwoSidedP(-12.94627, 136.875);
+    expect(p).toBeGreaterThan(0);
+    expect(p).toBeLessThan(1e-20);
+  });
 });
 
 describe('per-check summary', () => {
