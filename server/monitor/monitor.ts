@@ -17,8 +17,6 @@ import { alertKey, LineRuntimes, SEGMENT_MEMORY, type LineRuntime, type SegmentP
 import type { MonitorStateRepository } from './state-repository.js';
 import { alertSummary, alertView, alertViewFrom, checkSignalView, checkView, type AlertSummary, type AlertView, type CheckSignalView, type CheckView } from './views.js';
 
-export type { CheckInput } from './check-step.js';
-export { SEGMENT_MEMORY } from './line-runtime.js';
 
 /** A batch whose transaction SQLite rolled back on its own; carries the error that caused it. */
 class BatchAborted extends Error {

@@ -16,27 +16,7 @@ export interface ChangePointEstimate {
  * written with weights nᵢ so that checks of different sizes count by their packs.
  */
 export function stepChangePoint(points: readonly ChangePointInput[], centre: number): ChangePointEstimate | null {
-  if (points.length === 0) return null;
-  let bestIndex = 0;
-  let bestScore = -Infinity;
-  let sumDev = 0;
-  let sumN = 0;
-  let bestSumDev = 0;
-  let bestSumN = 1;
-  // walk backwards so each candidate start t sees the sums over points t..T
-  for (let t = points.length - 1; t >= 0; t -= 1) {
-    const p = points[t] as ChangePointInput;
-    sumDev += p.n * (p.mean - centre);
-    sumN += p.n;
-    const score = (sumDev * sumDev) / sumN;
-    if (score >= bestScore) {
-      bestScore = score;
-      bestIndex = t;
-      bestSumDev = sumDev;
-      bestSumN = sumN;
-    }
-  }
-  return { firstShiftedIndex: bestIndex, shiftedMean: centre + bestSumDev / bestSumN };
+  return bestStep(points, centre, 0);
 }
 
 /**
@@ -50,17 +30,21 @@ export function directedStepChangePoint(
   centre: number,
   direction: 'up' | 'down',
 ): ChangePointEstimate | null {
-  const sign = direction === 'up' ? 1 : -1;
+  return bestStep(points, centre, direction === 'up' ? 1 : -1);
+}
+
+/** Walks back from the last point so each candidate start t sees the sums over t..T; sign 0 is two-sided. */
+function bestStep(points: readonly ChangePointInput[], centre: number, sign: 1 | -1 | 0): ChangePointEstimate | null {
   let best: ChangePointEstimate | null = null;
-  let bestScore = 0;
+  let bestScore = -Infinity;
   let sumDev = 0;
   let sumN = 0;
   for (let t = points.length - 1; t >= 0; t -= 1) {
     const p = points[t] as ChangePointInput;
     sumDev += p.n * (p.mean - centre);
     sumN += p.n;
-    const onSide = sign * sumDev;
-    if (onSide <= 0) continue;
+    const onSide = sign === 0 ? Math.abs(sumDev) : sign * sumDev;
+    if (sign !== 0 && onSide <= 0) continue;
     const score = (onSide * onSide) / sumN;
     if (score >= bestScore) {
       bestScore = score;
