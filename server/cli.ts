@@ -3,6 +3,7 @@ import { createAuditRepository } from './audit/repository.js';
 import { createAuthRepository } from './auth/repository.js';
 import { ROLES, type Role } from './auth/secrets.js';
 import { createAuthService } from './auth/service.js';
+import { EVERY_USER } from './auth/throttle.js';
 import { createLineRepository } from './lines/repository.js';
 import { systemClock } from './clock.js';
 import { openDatabase } from './db/database.js';
@@ -89,7 +90,7 @@ async function main(): Promise<void> {
       for (const u of auth.users()) process.stdout.write(`${u.username}\t${u.role}\t${u.disabled ? 'disabled' : 'active'}\t${u.displayName}\n`);
     } else if (noun === 'user' && verb === 'locks') {
       for (const l of auth.signInLocks()) {
-        const who = l.username === '*' ? '(every user)' : l.username;
+        const who = l.username === EVERY_USER ? '(every user)' : l.username;
         process.stdout.write(`${who}\t${l.address}\t${l.failures} failures\t${l.locked ? `locked until ${new Date(l.lockedUntil as number).toISOString()}` : 'not locked'}\n`);
       }
     } else if (noun === 'user' && verb === 'unlock') {

@@ -3,6 +3,7 @@ import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { ADMIN, BOARD_COOKIE, requireActor, SESSION_COOKIE, SIGNED_IN, SUPERVISOR_UP } from './access.js';
 import { actorName } from './service.js';
+import { EVERY_USER } from './throttle.js';
 import type { HeftContext } from '../context.js';
 import { toIso } from '../clock.js';
 import { conflict, notFound, unauthorized } from '../errors.js';
@@ -83,7 +84,7 @@ export const authPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fasti
   });
 
   const lockView = (l: ReturnType<typeof auth.signInLocks>[number]) => ({
-    username: l.username === '*' ? null : l.username,
+    username: l.username === EVERY_USER ? null : l.username,
     address: l.address,
     failures: l.failures,
     lastFailureAt: toIso(l.lastFailureAt),

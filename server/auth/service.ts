@@ -28,7 +28,6 @@ function refusal(kind: 'locked' | 'wait', until: number, now: number): DomainErr
 
 const withArticle = (role: Role) => (role === 'admin' || role === 'operator' ? `an ${role}` : `a ${role}`);
 
-
 export interface AuthServiceOptions {
   db: Db;
   clock: Clock;

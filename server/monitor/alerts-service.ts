@@ -53,12 +53,14 @@ export class AlertsService {
     const out: StoredSignals = { signals: [], touched: new Map(), opened: new Set() };
     // several rules of one check join the same alert: it is written once, as it ends up
     const changed = new Set<number>();
+    // every mean-shift signal of one check and direction has the same change point: estimated once
+    const changePoints = new Map<Direction, ReturnType<typeof directedChangePoint>>();
     for (const p of pending) {
       const onset = pointAt(points, p.onsetIndex);
       const onsetCheckId = onset?.checkId ?? check.id;
       const onsetAt = onset?.takenAt ?? check.takenAt;
       const key = alertKey(p.kind, p.direction);
-      const episode = this.measure(runtime.model, points, p);
+      const episode = this.measure(runtime.model, points, p, changePoints);
       const existing = openAlerts.get(key);
       let alert: StoredAlert;
       if (!existing) {
@@ -98,9 +100,10 @@ export class AlertsService {
    * the centre, or else from its onset, to now. A shift down is never sized by a shift up still in
    * the segment. Other kinds keep the signal's own size.
    */
-  private measure(model: ProcessModel | null, points: readonly SegmentPoint[], p: PendingSignal) {
+  private measure(model: ProcessModel | null, points: readonly SegmentPoint[], p: PendingSignal, known: Map<Direction, ReturnType<typeof directedChangePoint>>) {
     if (p.kind !== 'mean-shift' || p.direction === null || !model) return { changePoint: null, size: p.size };
-    const changePoint = directedChangePoint(points, model, p.direction);
+    if (!known.has(p.direction)) known.set(p.direction, directedChangePoint(points, model, p.direction));
+    const changePoint = known.get(p.direction) ?? null;
     return { changePoint, size: changePoint?.size ?? sizeSince(points, p.onsetIndex, model) ?? p.size };
   }
 
