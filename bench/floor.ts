@@ -6,7 +6,7 @@ import Database from 'better-sqlite3';
 import Fastify from 'fastify';
 import { serializerCompiler, validatorCompiler, type ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { checkBody } from '../server/checks/routes.js';
+import { checkBody } from '../server/checks/contract.js';
 
 const [file, port] = process.argv.slice(2);
 const db = new Database(file as string);

@@ -3,7 +3,7 @@ import { buildApp } from '../server/app.js';
 import { ManualClock } from '../server/clock.js';
 import type { Config } from '../server/config.js';
 import type { Db } from '../server/db/database.js';
-import type { AlertSummary } from '../server/monitor/views.js';
+import type { AlertSummary } from '../server/alerts/contract.js';
 import { mulberry32, normalGenerator } from '../server/stats/random.js';
 import { DEMO_SEED, DEMO_USERS, HISTORY_DAYS, INCIDENTS, LINES, PEOPLE, PRODUCTS, type DemoProduct } from './scenario.js';
 

@@ -1,14 +1,11 @@
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
-import { z } from 'zod';
 import { BOARD_READ, requireActor, SUPERVISOR_UP } from '../auth/access.js';
 import { actorName } from '../auth/service.js';
 import type { HeftContext } from '../context.js';
 import { notFound } from '../errors.js';
-import { alertView, alertViewFrom, SIGNALS_IN_VIEW } from '../monitor/views.js';
-import { freeText, idParam, isoTime } from '../shared/schemas.js';
-
-const alertParams = z.strictObject({ id: idParam });
+import { alertView, alertViewFrom } from '../monitor/views.js';
+import { acknowledgeBody, alertAnswer, alertListAnswer, alertListQuery, alertPageAnswer, alertParams, resolveBody, signalPageQuery } from './contract.js';
 
 export const alertsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fastify, { ctx }) => {
   const app = fastify.withTypeProvider<ZodTypeProvider>();
@@ -19,13 +16,8 @@ export const alertsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
     {
       config: { roles: BOARD_READ },
       schema: {
-        querystring: z.strictObject({
-          state: z.enum(['open', 'acknowledged', 'resolved']).optional(),
-          lineId: idParam.optional(),
-          from: isoTime.optional(),
-          to: isoTime.optional(),
-          limit: z.coerce.number().int().min(1).max(5000).default(500),
-        }),
+        querystring: alertListQuery,
+        response: { 200: alertListAnswer },
       },
     },
     async (req) => ({
@@ -40,7 +32,8 @@ export const alertsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
       config: { roles: BOARD_READ },
       schema: {
         params: alertParams,
-        querystring: z.strictObject({ before: idParam.optional(), limit: z.coerce.number().int().min(1).max(1000).default(SIGNALS_IN_VIEW) }),
+        querystring: signalPageQuery,
+        response: { 200: alertPageAnswer },
       },
     },
     async (req) => {
@@ -55,7 +48,7 @@ export const alertsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
 
   app.post(
     '/api/alerts/:id/acknowledge',
-    { config: { roles: SUPERVISOR_UP }, schema: { params: alertParams, body: z.strictObject({ note: freeText(1000) }) } },
+    { config: { roles: SUPERVISOR_UP }, schema: { params: alertParams, body: acknowledgeBody, response: { 200: alertAnswer } } },
     async (req) => ({ alert: monitor.acknowledge(req.params.id, req.body.note, actorName(requireActor(req))) }),
   );
 
@@ -63,7 +56,7 @@ export const alertsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
     '/api/alerts/:id/resolve',
     {
       config: { roles: SUPERVISOR_UP },
-      schema: { params: alertParams, body: z.strictObject({ cause: freeText(1000), action: freeText(1000) }) },
+      schema: { params: alertParams, body: resolveBody, response: { 200: alertAnswer } },
     },
     async (req) => ({ alert: monitor.resolve(req.params.id, req.body.cause, req.body.action, actorName(requireActor(req))) }),
   );

@@ -25,8 +25,8 @@ declare module 'fastify' {
     actor: Actor | null;
   }
   interface FastifyInstance {
-    /** Every route Fastify registered, with its declared roles: the access matrix test walks it. */
-    routeTable: { method: string; url: string; roles: Access[] }[];
+    /** Every route Fastify registered, with its declared roles and answers: the access matrix and contract tests walk it. */
+    routeTable: { method: string; url: string; roles: Access[]; response: Record<string, unknown> | null }[];
   }
 }
 
@@ -61,7 +61,7 @@ export function installAccess(app: FastifyInstance, auth: AuthService): void {
     if (!Array.isArray(roles) || roles.length === 0) {
       throw new Error(`route ${String(route.method)} ${route.url} declares no roles (config.roles)`);
     }
-    for (const method of [route.method].flat()) table.push({ method: String(method), url: route.url, roles });
+    for (const method of [route.method].flat()) table.push({ method: String(method), url: route.url, roles, response: (route.schema?.response as Record<string, unknown> | undefined) ?? null });
   });
   app.addHook('onRequest', async (request: FastifyRequest, _reply: FastifyReply) => {
     const roles = request.routeOptions.config?.roles;

@@ -1,21 +1,35 @@
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
-import { z } from 'zod';
 import { ADMIN, BOARD_COOKIE, requireActor, SESSION_COOKIE, SIGNED_IN, SUPERVISOR_UP } from './access.js';
 import { actorName } from './service.js';
 import { EVERY_USER } from './throttle.js';
 import type { HeftContext } from '../context.js';
 import { toIso } from '../clock.js';
 import { conflict, notFound, unauthorized } from '../errors.js';
-import { freeText, idParam } from '../shared/schemas.js';
-import { ROLES, type Role } from './secrets.js';
+import {
+  boardSessionAnswer,
+  boardSignInBody,
+  clearedAnswer,
+  clearLocksBody,
+  idParams,
+  lockListAnswer,
+  newTokenAnswer,
+  newTokenBody,
+  newUserBody,
+  sessionAnswer,
+  signInBody,
+  tokenAnswer,
+  tokenListAnswer,
+  userAnswer,
+  userListAnswer,
+  userPatch,
+  type TokenView,
+  type UserView,
+} from './contract.js';
 import type { MachineToken, User } from './repository.js';
 
-const username = z.string().trim().min(2).max(40).regex(/^[a-z0-9][a-z0-9._-]*$/i, 'letters, digits, dot, dash, underscore');
-const role = z.enum(ROLES as [Role, ...Role[]]);
-
 /** `locked`: wrong sign-ins have locked this user out at one device or more (other devices still work). */
-const userView = (u: User, lockedNames: ReadonlySet<string>) => ({
+const userView = (u: User, lockedNames: ReadonlySet<string>): UserView => ({
   id: u.id,
   username: u.username,
   displayName: u.displayName,
@@ -23,7 +37,7 @@ const userView = (u: User, lockedNames: ReadonlySet<string>) => ({
   disabled: u.disabled,
   locked: lockedNames.has(u.username.toLowerCase()),
 });
-const tokenView = (t: MachineToken) => ({ id: t.id, name: t.name, kind: t.kind, lineIds: t.lineIds, createdBy: t.createdBy, createdAt: toIso(t.createdAt), revokedAt: toIso(t.revokedAt) });
+const tokenView = (t: MachineToken): TokenView => ({ id: t.id, name: t.name, kind: t.kind, lineIds: t.lineIds, createdBy: t.createdBy, createdAt: toIso(t.createdAt), revokedAt: toIso(t.revokedAt) });
 
 export const authPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fastify, { ctx }) => {
   const app = fastify.withTypeProvider<ZodTypeProvider>();
@@ -33,7 +47,7 @@ export const authPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fasti
     '/api/session',
     {
       config: { roles: ['anyone'], rateLimit: { max: config.signInPerMinute, timeWindow: '1 minute' } },
-      schema: { body: z.strictObject({ username: z.string().min(1).max(100), secret: z.string().min(1).max(200) }) },
+      schema: { body: signInBody, response: { 200: sessionAnswer } },
     },
     async (req, reply) => {
       const { sessionId, user } = await auth.signIn(req.body.username, req.body.secret, req.ip);
@@ -53,7 +67,7 @@ export const authPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fasti
     '/api/board-session',
     {
       config: { roles: ['anyone'], rateLimit: { max: 20, timeWindow: '1 minute' } },
-      schema: { body: z.strictObject({ token: z.string().min(1).max(200) }) },
+      schema: { body: boardSignInBody, response: { 200: boardSessionAnswer } },
     },
     async (req, reply) => {
       const actor = auth.tokenActor(req.body.token);
@@ -63,7 +77,7 @@ export const authPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fasti
     },
   );
 
-  app.get('/api/session', { config: { roles: SIGNED_IN } }, async (req) => {
+  app.get('/api/session', { config: { roles: SIGNED_IN }, schema: { response: { 200: sessionAnswer } } }, async (req) => {
     const actor = requireActor(req);
     if (actor.kind !== 'user') throw notFound('session');
     const user = repos.auth.user(actor.userId) as User;
@@ -78,7 +92,7 @@ export const authPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fasti
 
   const lockedNames = () => new Set(auth.signInLocks().filter((l) => l.locked).map((l) => l.username));
 
-  app.get('/api/users', { config: { roles: ADMIN } }, async () => {
+  app.get('/api/users', { config: { roles: ADMIN }, schema: { response: { 200: userListAnswer } } }, async () => {
     const locked = lockedNames();
     return { users: auth.users().map((u) => userView(u, locked)) };
   });
@@ -91,20 +105,20 @@ export const authPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fasti
     lockedUntil: l.locked ? toIso(l.lockedUntil) : null,
   });
 
-  app.get('/api/sign-in-locks', { config: { roles: SUPERVISOR_UP } }, async () => ({ locks: auth.signInLocks().map(lockView) }));
+  app.get('/api/sign-in-locks', { config: { roles: SUPERVISOR_UP }, schema: { response: { 200: lockListAnswer } } }, async () => ({ locks: auth.signInLocks().map(lockView) }));
 
   app.post(
     '/api/sign-in-locks/clear',
     {
       config: { roles: SUPERVISOR_UP },
-      schema: { body: z.strictObject({ username: z.string().trim().min(1).max(100).optional(), address: z.string().trim().min(1).max(100).optional() }) },
+      schema: { body: clearLocksBody, response: { 200: clearedAnswer } },
     },
     async (req) => ({ cleared: auth.clearSignInLocks(req.body, actorName(requireActor(req))) }),
   );
 
   app.post(
     '/api/users',
-    { config: { roles: ADMIN }, schema: { body: z.strictObject({ username, displayName: freeText(100), role, secret: z.string().min(1).max(200) }) } },
+    { config: { roles: ADMIN }, schema: { body: newUserBody, response: { 201: userAnswer } } },
     async (req, reply) => {
       const user = await auth.addUser(req.body, actorName(requireActor(req)));
       return reply.code(201).send({ user: userView(user, lockedNames()) });
@@ -115,10 +129,7 @@ export const authPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fasti
     '/api/users/:id',
     {
       config: { roles: ADMIN },
-      schema: {
-        params: z.strictObject({ id: idParam }),
-        body: z.strictObject({ displayName: freeText(100).optional(), role: role.optional(), disabled: z.boolean().optional(), secret: z.string().min(1).max(200).optional() }),
-      },
+      schema: { params: idParams, body: userPatch, response: { 200: userAnswer } },
     },
     async (req) => {
       const by = actorName(requireActor(req));
@@ -129,19 +140,13 @@ export const authPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fasti
     },
   );
 
-  app.get('/api/tokens', { config: { roles: ADMIN } }, async () => ({ tokens: auth.tokens().map(tokenView) }));
+  app.get('/api/tokens', { config: { roles: ADMIN }, schema: { response: { 200: tokenListAnswer } } }, async () => ({ tokens: auth.tokens().map(tokenView) }));
 
   app.post(
     '/api/tokens',
     {
       config: { roles: ADMIN },
-      schema: {
-        body: z.strictObject({
-          name: freeText(100),
-          kind: z.enum(['checks', 'board']),
-          lineIds: z.array(idParam).max(500).default([]),
-        }),
-      },
+      schema: { body: newTokenBody, response: { 201: newTokenAnswer } },
     },
     async (req, reply) => {
       for (const id of req.body.lineIds) if (!repos.lines.get(id)) throw notFound(`line ${id}`);
@@ -151,7 +156,7 @@ export const authPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fasti
     },
   );
 
-  app.delete('/api/tokens/:id', { config: { roles: ADMIN }, schema: { params: z.strictObject({ id: idParam }) } }, async (req) => ({
+  app.delete('/api/tokens/:id', { config: { roles: ADMIN }, schema: { params: idParams, response: { 200: tokenAnswer } } }, async (req) => ({
     token: tokenView(auth.revokeToken(req.params.id, actorName(requireActor(req)))),
   }));
 };

@@ -4,45 +4,22 @@ import { z } from 'zod';
 import { BOARD_READ, requireActor } from '../auth/access.js';
 import { actorName } from '../auth/service.js';
 import type { HeftContext } from '../context.js';
-import { toIso } from '../clock.js';
 import { notFound } from '../errors.js';
-import { falseAlarmFigure } from '../monitor/false-alarm-cache.js';
-import { alertViewFrom, checkView } from '../monitor/views.js';
-import { productView } from '../products/routes.js';
-import { freeText, idParam, isoTime, rangeQuery } from '../shared/schemas.js';
-import { summarizeSample } from '../stats/sample-summary.js';
-
-const lineParams = z.strictObject({ lineId: idParam });
-
-export const checkBody = z.strictObject({
-  weights: z
-    .array(z.number().finite().positive().max(1_000_000), 'a list of 1 to 50 weights')
-    .min(1, 'at least one weight')
-    .max(50, 'at most 50 weights'),
-  clientId: z.uuid('a UUID made by the client'),
-  takenAt: isoTime.optional(),
-  basis: z.enum(['net', 'gross']).optional(),
-  note: freeText(500).nullable().optional(),
-  confirmSuspect: z.boolean().optional(),
-});
-
-const correctionBody = z.strictObject({
-  weights: checkBody.shape.weights,
-  clientId: checkBody.shape.clientId,
-  reason: freeText(500),
-  basis: checkBody.shape.basis,
-  confirmSuspect: checkBody.shape.confirmSuspect,
-});
+import { checkView } from '../monitor/views.js';
+import { idParam } from '../shared/schemas.js';
+import { lineParams } from '../lines/contract.js';
+import { lineStatusView } from './status.js';
+import { checkAnswer, checkBody, checkListAnswer, checkListQuery, correctionBody, statusAnswer } from './contract.js';
 
 export const checksPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fastify, { ctx }) => {
   const app = fastify.withTypeProvider<ZodTypeProvider>();
-  const { repos, monitor, clock, commits } = ctx;
+  const { repos, monitor, commits } = ctx;
 
   app.post(
     '/api/lines/:lineId/checks',
     {
       config: { roles: ['operator', 'supervisor', 'quality', 'admin', 'checks-token'] },
-      schema: { params: lineParams, body: checkBody },
+      schema: { params: lineParams, body: checkBody, response: { '2xx': checkAnswer } },
     },
     async (req, reply) => {
       const actor = requireActor(req);
@@ -55,7 +32,7 @@ export const checksPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
     '/api/checks/:checkId/revisions',
     {
       config: { roles: ['operator', 'supervisor', 'quality', 'admin'] },
-      schema: { params: z.strictObject({ checkId: idParam }), body: correctionBody },
+      schema: { params: z.strictObject({ checkId: idParam }), body: correctionBody, response: { '2xx': checkAnswer } },
     },
     async (req, reply) => {
       const actor = actorName(requireActor(req));
@@ -68,7 +45,7 @@ export const checksPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
     '/api/lines/:lineId/checks',
     {
       config: { roles: BOARD_READ },
-      schema: { params: lineParams, querystring: rangeQuery.extend({ revisions: z.enum(['all', 'current']).default('current') }) },
+      schema: { params: lineParams, querystring: checkListQuery, response: { 200: checkListAnswer } },
     },
     async (req) => {
       if (!repos.lines.get(req.params.lineId)) throw notFound(`line ${req.params.lineId}`);
@@ -83,37 +60,7 @@ export const checksPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
     },
   );
 
-  app.get('/api/lines/:lineId/status', { config: { roles: BOARD_READ }, schema: { params: lineParams } }, async (req) => {
-    const state = monitor.lineState(req.params.lineId);
-    const { product, run } = state;
-    const window = run && product ? repos.checks.latestOfRun(run.id, product.windowSize) : [];
-    const pooled = window.flatMap((c) => c.weights);
-    const set = state.ruleSet;
-    return {
-      status: {
-        line: { id: state.line.id, code: state.line.code, name: state.line.name },
-        state: product ? state.status : 'idle',
-        product: product ? productView(product) : null,
-        run: run ? { id: run.id, startedAt: toIso(run.startedAt) } : null,
-        limits: state.limits,
-        window:
-          product && pooled.length > 0
-            ? { checks: window.length, ...summarizeSample(pooled, product.target) }
-            : null,
-        detectors: state.limits
-          ? {
-              points: state.segment.count,
-              ewma: set.enabled['ewma-shift'] ? { ...set.ewma, value: state.segment.ewma.value } : null,
-              cusum: set.enabled['cusum-shift'] ? { ...set.cusum, upper: state.segment.cusum.upper, lower: state.segment.cusum.lower } : null,
-            }
-          : null,
-        openAlerts: state.openAlerts.map((a) => alertViewFrom(repos.alerts, a)),
-        lastCheckAt: toIso(state.lastCheckAt),
-        nextCheckDue: toIso(state.nextCheckDue),
-        overdue: state.overdue,
-        falseAlarm: product && state.limits ? falseAlarmFigure(set, product.subgroupSize, product.samplingMinutes) : null,
-        now: toIso(clock.now()),
-      },
-    };
+  app.get('/api/lines/:lineId/status', { config: { roles: BOARD_READ }, schema: { params: lineParams, response: { 200: statusAnswer } } }, async (req) => {
+    return { status: lineStatusView(ctx, req.params.lineId) };
   });
 };

@@ -1,4 +1,8 @@
 import type { Db } from '../db/database.js';
+import type { SigmaMethod } from '../stats/control-limits.js';
+
+/** How a version's σ was found: estimated from a baseline, or set from a standard. */
+export type LimitsMethod = SigmaMethod | 'standard';
 
 export interface LimitsVersion {
   id: number;
@@ -6,7 +10,7 @@ export interface LimitsVersion {
   productId: number;
   centre: number;
   sigma: number;
-  method: string;
+  method: LimitsMethod;
   baselineFrom: number | null;
   baselineTo: number | null;
   baselineChecks: number | null;
@@ -21,7 +25,7 @@ interface Row {
   product_id: number;
   centre: number;
   sigma: number;
-  method: string;
+  method: LimitsMethod;
   baseline_from: number | null;
   baseline_to: number | null;
   baseline_checks: number | null;

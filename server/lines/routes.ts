@@ -1,29 +1,20 @@
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
-import { z } from 'zod';
 import { ADMIN, BOARD_READ, requireActor, SUPERVISOR_UP } from '../auth/access.js';
 import { actorName } from '../auth/service.js';
 import type { HeftContext } from '../context.js';
 import { notFound } from '../errors.js';
-import { code, freeText, idParam } from '../shared/schemas.js';
-import { productView } from '../products/routes.js';
+import { productView } from '../products/views.js';
+import { changeoverBody, lineAnswer, lineBody, lineListAnswer, lineParams, linePatch, type LineView } from './contract.js';
 import type { Line } from './repository.js';
 import { createLineService } from './service.js';
-
-const lineBody = z.strictObject({
-  code,
-  name: freeText(100),
-  packsPerHour: z.number().positive().max(1_000_000).nullable().optional(),
-});
-const linePatch = lineBody.partial();
-const lineParams = z.strictObject({ lineId: idParam });
 
 export const linesPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fastify, { ctx }) => {
   const app = fastify.withTypeProvider<ZodTypeProvider>();
   const { repos, monitor } = ctx;
   const lines = createLineService(ctx);
 
-  const lineView = (line: Line) => {
+  const lineView = (line: Line): LineView => {
     const state = monitor.lineState(line.id);
     return {
       id: line.id,
@@ -37,26 +28,26 @@ export const linesPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fast
     };
   };
 
-  app.get('/api/lines', { config: { roles: BOARD_READ } }, async () => ({ lines: repos.lines.list().map(lineView) }));
+  app.get('/api/lines', { config: { roles: BOARD_READ }, schema: { response: { 200: lineListAnswer } } }, async () => ({ lines: repos.lines.list().map(lineView) }));
 
-  app.get('/api/lines/:lineId', { config: { roles: BOARD_READ }, schema: { params: lineParams } }, async (req) => {
+  app.get('/api/lines/:lineId', { config: { roles: BOARD_READ }, schema: { params: lineParams, response: { 200: lineAnswer } } }, async (req) => {
     const line = repos.lines.get(req.params.lineId);
     if (!line) throw notFound(`line ${req.params.lineId}`);
     return { line: lineView(line) };
   });
 
-  app.post('/api/lines', { config: { roles: ADMIN }, schema: { body: lineBody } }, async (req, reply) => {
+  app.post('/api/lines', { config: { roles: ADMIN }, schema: { body: lineBody, response: { 201: lineAnswer } } }, async (req, reply) => {
     const line = lines.create({ code: req.body.code, name: req.body.name, packsPerHour: req.body.packsPerHour ?? null }, actorName(requireActor(req)));
     return reply.code(201).send({ line: lineView(line) });
   });
 
-  app.patch('/api/lines/:lineId', { config: { roles: ADMIN }, schema: { params: lineParams, body: linePatch } }, async (req) => ({
+  app.patch('/api/lines/:lineId', { config: { roles: ADMIN }, schema: { params: lineParams, body: linePatch, response: { 200: lineAnswer } } }, async (req) => ({
     line: lineView(lines.update(req.params.lineId, req.body, actorName(requireActor(req)))),
   }));
 
   app.put(
     '/api/lines/:lineId/product',
-    { config: { roles: SUPERVISOR_UP }, schema: { params: lineParams, body: z.strictObject({ productId: idParam }) } },
+    { config: { roles: SUPERVISOR_UP }, schema: { params: lineParams, body: changeoverBody, response: { 200: lineAnswer } } },
     async (req) => {
       const actor = actorName(requireActor(req));
       if (!repos.lines.get(req.params.lineId)) throw notFound(`line ${req.params.lineId}`);

@@ -15,7 +15,9 @@ import { AlertsService } from './alerts-service.js';
 import { checkStep, type CheckInput, type CheckStep } from './check-step.js';
 import { alertKey, LineRuntimes, SEGMENT_MEMORY, type LineRuntime, type SegmentPoint } from './line-runtime.js';
 import type { MonitorStateRepository } from './state-repository.js';
-import { alertSummary, alertView, alertViewFrom, checkSignalView, checkView, type AlertSummary, type AlertView, type CheckSignalView, type CheckView } from './views.js';
+import type { AlertSummary, AlertView, CheckSignalView } from '../alerts/contract.js';
+import type { CheckView } from '../checks/contract.js';
+import { alertSummary, alertView, alertViewFrom, checkSignalView, checkView } from './views.js';
 
 
 /** A batch whose transaction SQLite rolled back on its own; carries the error that caused it. */

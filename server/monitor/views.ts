@@ -3,10 +3,12 @@ import type { StoredCheck } from '../checks/repository.js';
 import { toIso } from '../clock.js';
 import { inferFromMoments } from '../stats/sample-summary.js';
 import { RULE_CATALOGUE } from '../stats/rules.js';
+import { SIGNALS_IN_VIEW, type AlertSummary, type AlertView, type CheckSignalView, type SignalView } from '../alerts/contract.js';
+import type { CheckView } from '../checks/contract.js';
 
 /** The JSON shapes the API and the live feed answer with (API.md). */
 
-export function checkView(c: StoredCheck) {
+export function checkView(c: StoredCheck): CheckView {
   const own = inferFromMoments(c.n, c.mean, c.sd, c.target);
   const windowed = inferFromMoments(c.windowN, c.windowMean, c.windowSd, c.target);
   return {
@@ -55,8 +57,6 @@ export function checkView(c: StoredCheck) {
   };
 }
 
-export type CheckView = ReturnType<typeof checkView>;
-
 const WORDS = new Map<string, string>([...RULE_CATALOGUE.map((r) => [r.id, r.words] as const), ['check-overdue', 'check overdue']]);
 
 /** The words a screen shows for a rule id. */
@@ -64,7 +64,7 @@ export function ruleWords(rule: string): string {
   return WORDS.get(rule) ?? rule;
 }
 
-export function signalView(s: StoredSignal) {
+export function signalView(s: StoredSignal): SignalView {
   return {
     rule: s.rule,
     words: ruleWords(s.rule),
@@ -77,15 +77,13 @@ export function signalView(s: StoredSignal) {
   };
 }
 
-export type SignalView = ReturnType<typeof signalView>;
-
 /**
  * A check's signals as its answer gives them: grouped by the alert each joined, with the size once
  * per group (every signal of one kind on one check has the same size) and per rule only what
  * differs. The check and its time are the answer's own; the words are the alert summary's.
  */
-export function checkSignalView(signals: readonly StoredSignal[]) {
-  const groups = new Map<number, { alertId: number; direction: StoredSignal['direction']; size: StoredSignal['size']; rules: { rule: StoredSignal['rule']; severity: StoredSignal['severity']; onsetCheckId: number | null }[] }>();
+export function checkSignalView(signals: readonly StoredSignal[]): CheckSignalView[] {
+  const groups = new Map<number, CheckSignalView>();
   for (const s of signals) {
     let group = groups.get(s.alertId);
     if (!group) {
@@ -97,16 +95,11 @@ export function checkSignalView(signals: readonly StoredSignal[]) {
   return [...groups.values()];
 }
 
-export type CheckSignalView = ReturnType<typeof checkSignalView>[number];
-
-/** How many of an alert's signals a full view carries (the latest); `signalCount` says how many there are. */
-export const SIGNALS_IN_VIEW = 50;
-
 /**
  * What a check's answer and its live messages say of each alert it touched: no signal history and no
  * free text, so its size does not grow with the alert. The full view is on GET /api/alerts/:id.
  */
-export function alertSummary(a: StoredAlert) {
+export function alertSummary(a: StoredAlert): AlertSummary {
   return {
     id: a.id,
     lineId: a.lineId,
@@ -115,7 +108,7 @@ export function alertSummary(a: StoredAlert) {
     direction: a.direction,
     severity: a.severity,
     state: a.state,
-    rules: a.rules,
+    rules: a.rules as AlertSummary['rules'],
     ruleWords: a.rules.map(ruleWords),
     signalCount: a.signalCount,
     openedAt: toIso(a.openedAt),
@@ -127,10 +120,8 @@ export function alertSummary(a: StoredAlert) {
   };
 }
 
-export type AlertSummary = ReturnType<typeof alertSummary>;
-
 /** An alert in full: the summary, who saw to it and why, and a page of its signals. */
-export function alertView(a: StoredAlert, signals: readonly StoredSignal[]) {
+export function alertView(a: StoredAlert, signals: readonly StoredSignal[]): AlertView {
   return {
     ...alertSummary(a),
     signals: signals.map(signalView),
@@ -138,8 +129,6 @@ export function alertView(a: StoredAlert, signals: readonly StoredSignal[]) {
     resolved: a.resolvedAt === null ? null : { by: a.resolvedBy, at: toIso(a.resolvedAt), cause: a.cause, action: a.action },
   };
 }
-
-export type AlertView = ReturnType<typeof alertView>;
 
 /** An alert's full view with its latest signals read from storage. */
 export function alertViewFrom(alerts: AlertRepository, a: StoredAlert): AlertView {

@@ -11,6 +11,7 @@ import { mean, sampleSd } from '../stats/descriptive.js';
 import { averageSystemPosition, lowestTarget } from '../stats/net-quantity.js';
 import { resolveRuleSet } from '../stats/rule-set.js';
 import { fTest, welchTest } from '../stats/two-sample.js';
+import type { CapabilityView, Comparison, LineSection, ProductSection, Review } from './contract.js';
 import { createReviewRepository, type CheckMoments } from './repository.js';
 
 /** A p-value in words for the comparison's sentence: `p = 0.0312`, or `p < 0.0001` below that. */
@@ -44,7 +45,7 @@ export function createReviewService(ctx: HeftContext) {
   const repo = createReviewRepository(ctx.db);
   const { repos } = ctx;
 
-  function productSection(line: Line, product: Product, from: number, to: number, lineAlerts: StoredAlert[]) {
+  function productSection(line: Line, product: Product, from: number, to: number, lineAlerts: StoredAlert[]): ProductSection {
     const checks = repo.checks(line.id, product.id, from, to);
     const packs = repo.packs(line.id, product.id, from, to);
     const unit = product.unit;
@@ -65,7 +66,7 @@ export function createReviewService(ctx: HeftContext) {
 
     const lsl = product.lsl ?? product.t1;
     const usl = product.usl;
-    let capabilityResult: Record<string, unknown>;
+    let capabilityResult: CapabilityView;
     const unstable = unstableAt(lineAlerts, to);
     if (checks.length < MIN_CAPABILITY_CHECKS) {
       capabilityResult = { refused: `only ${checks.length} checks in the range; at least ${MIN_CAPABILITY_CHECKS} are needed for an index that means something` };
@@ -123,7 +124,7 @@ export function createReviewService(ctx: HeftContext) {
     };
   }
 
-  function lineSection(line: Line, from: number, to: number) {
+  function lineSection(line: Line, from: number, to: number): LineSection {
     const alerts = repos.alerts.overlapping(line.id, from, to);
     const inRange = alerts.filter((a) => a.openedAt >= from && a.openedAt < to);
     const productIds = repo.productsIn(line.id, from, to);
@@ -163,14 +164,14 @@ export function createReviewService(ctx: HeftContext) {
   }
 
   return {
-    review(from: number, to: number, lineIds: number[] | null) {
+    review(from: number, to: number, lineIds: number[] | null): Review {
       const lines = repos.lines.list().filter((l) => lineIds === null || lineIds.includes(l.id));
       if (lineIds) for (const id of lineIds) if (!lines.some((l) => l.id === id)) throw notFound(`line ${id}`);
       return { from: new Date(from).toISOString(), to: new Date(to).toISOString(), timeZone: ctx.config.timeZone, lines: lines.map((l) => lineSection(l, from, to)) };
     },
 
     /** Welch's t on the pack weights of two periods (or two crews) of one line and product, and an F-test of their spread. */
-    compare(lineId: number, a: Period, b: Period, productId?: number) {
+    compare(lineId: number, a: Period, b: Period, productId?: number): Comparison {
       const line = repos.lines.get(lineId);
       if (!line) throw notFound(`line ${lineId}`);
       const pid = productId ?? repo.productsIn(lineId, a.from, a.to)[0];

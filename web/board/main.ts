@@ -324,7 +324,7 @@ function applyAlert(alert: Alert | AlertSummary): void {
 }
 
 async function onMessage(m: LiveMessage): Promise<void> {
-  const lineId = m.lineId ?? -1;
+  const lineId = m.lineId;
   let v = board.lines.get(lineId);
   if (!v && lineId > 0) {
     await loadAll();
@@ -332,8 +332,8 @@ async function onMessage(m: LiveMessage): Promise<void> {
   }
   if (!v) return;
   if (m.type === 'check') {
-    const check = m.check as Check;
-    if ((m.signals as unknown[]).length > 0) v.signalled.add(check.id);
+    const check = m.check;
+    if (m.signals.length > 0) v.signalled.add(check.id);
     v.points = [...v.points.filter((p) => p.checkId !== check.id), toPoint(check)].slice(-MAX_POINTS * 4);
     if (v.status) {
       v.status.lastCheckAt = check.takenAt;
@@ -343,7 +343,7 @@ async function onMessage(m: LiveMessage): Promise<void> {
     refreshTile(v);
   } else if (m.type === 'alert-opened' || m.type === 'alert-updated') {
     if (m.type === 'alert-opened' && board.sound) twoToneChime();
-    applyAlert(m.alert as Alert | AlertSummary);
+    applyAlert(m.alert);
   } else if (m.type === 'line-status') {
     v = await loadLine(v.line);
     board.lines.set(lineId, v);

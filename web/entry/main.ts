@@ -1,17 +1,11 @@
 import '../shared/base.css';
 import './entry.css';
-import { api, ApiError, getPlant, NetworkError, signIn, signOut, whoAmI, type Check, type Line, type Plant, type AlertSummary, type CheckSignal, type Product, type Status, type User } from '../shared/api.js';
+import { api, ApiError, getPlant, NetworkError, signIn, signOut, whoAmI, type Check, type Line, type Plant, type CheckAnswer, type CheckSignal, type Product, type Status, type User } from '../shared/api.js';
 import { clock, decimalsFor, el, overUnder, parseDecimal, weight } from '../shared/format.js';
 import { enqueue, remove, waiting, type QueuedCheck } from './queue.js';
 
 const LINE_KEY = 'heft.entry.lineId';
 const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as T;
-
-interface CheckAnswer {
-  check: Check;
-  signals: CheckSignal[];
-  alerts: AlertSummary[];
-}
 
 /** Each rule this check broke, with its severity and its words from the summary of the alert it joined. */
 function rulesBroken(answer: CheckAnswer): { rule: string; severity: 'act' | 'watch'; words: string }[] {

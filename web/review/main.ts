@@ -1,53 +1,14 @@
 import '../shared/base.css';
 import './review.css';
-import { api, ApiError, getPlant, signIn, whoAmI, type Alert, type Line, type Plant } from '../shared/api.js';
+import { api, ApiError, getPlant, signIn, whoAmI, type Line, type Plant } from '../shared/api.js';
 import { meanChart, meanChartData, type ChartPoint } from '../shared/charts.js';
 import { alertTitle, dateTime, el } from '../shared/format.js';
-import type { AverageSystemPosition } from '../../server/stats/net-quantity.js';
+import type { LineSection, ProductSection, Review } from '../../server/review/contract.js';
 
 const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as T;
 
-interface Index {
-  value: number;
-  ci95: [number, number];
-}
-interface Capability {
-  refused?: string;
-  lsl?: number;
-  usl?: number | null;
-  within?: { sigma: number; source: string; cp: Index | null; cpk: Index; unavailable: { cp?: string } };
-  overall?: { sigma: number; cp: Index | null; cpk: Index; unavailable: { cp?: string } };
-}
-interface ProductSection {
-  product: { id: number; code: string; name: string; nominal: number; unit: 'g' | 'kg'; target: number; t1: number | null; t2: number | null; costPerKg: number | null };
-  checks: number;
-  packs: number;
-  mean: number | null;
-  sd: number | null;
-  capability: Capability;
-  netQuantity: AverageSystemPosition | null;
-  giveaway: { perPack: number | null; percentOfNominal: number | null; packsMade: number | null; hoursRunning: number; cost: number | null };
-  targetAdvice: { sigma: number | null; lowestTarget: number | null; rule: string; savingPerPack: number | null; saving: number | null };
-  points: { checkId: number; at: string; mean: number; n: number; sd: number | null; range: number }[];
-  limits: { centre: number; sigma: number } | null;
-}
-type Event = Alert & { minutesToAcknowledge: number | null; minutesToResolve: number | null };
-interface LineSection {
-  line: { id: number; code: string; name: string };
-  sampling: { checksTaken: number; checksDue: number; kept: boolean };
-  events: Event[];
-  medianMinutesToAcknowledge: number | null;
-  medianMinutesToResolve: number | null;
-  alertLoad: { days: number; shiftAlerts: number; perDay: number; predictedFalseAlarmsPerDay: number; note: string };
-  operators: { name: string; checks: number }[];
-  products: ProductSection[];
-}
-interface Review {
-  from: string;
-  to: string;
-  timeZone: string;
-  lines: LineSection[];
-}
+/** A capability index with its 95 % interval. */
+type Index = Extract<ProductSection['capability'], { within: unknown }>['within']['cpk'];
 
 let plant: Plant = { name: 'Heft', timeZone: 'UTC' };
 let allLines: Line[] = [];
@@ -108,14 +69,14 @@ function renderProduct(section: LineSection, p: ProductSection): HTMLElement {
   }
   const cap = p.capability;
   box.append(el('h4', {}, 'Capability'));
-  if (cap.refused) box.append(el('p', { class: 'refused' }, `Not computed: ${cap.refused}.`));
+  if ('refused' in cap) box.append(el('p', { class: 'refused' }, `Not computed: ${cap.refused}.`));
   else
     box.append(
       table(
         ['', 'σ', 'Cp / Pp', 'Cpk / Ppk'],
         [
-          [`Within checks (${cap.within?.source})`, `${fmt(cap.within?.sigma, d)} ${u}`, indexCell(cap.within?.cp, cap.within?.unavailable.cp), indexCell(cap.within?.cpk)],
-          ['Overall (all packs)', `${fmt(cap.overall?.sigma, d)} ${u}`, indexCell(cap.overall?.cp, cap.overall?.unavailable.cp), indexCell(cap.overall?.cpk)],
+          [`Within checks (${cap.within.source})`, `${fmt(cap.within.sigma, d)} ${u}`, indexCell(cap.within.cp, cap.within.unavailable.cp), indexCell(cap.within.cpk)],
+          ['Overall (all packs)', `${fmt(cap.overall.sigma, d)} ${u}`, indexCell(cap.overall.cp, cap.overall.unavailable.cp), indexCell(cap.overall.cpk)],
         ],
       ),
       el('p', { class: 'muted' }, `Against a lower limit of ${cap.lsl} ${u}${cap.usl ? ` and an upper limit of ${cap.usl} ${u}` : ''}. Intervals: chi-square for Cp and Pp, Bissell (1990) for Cpk and Ppk.`),

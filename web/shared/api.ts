@@ -30,119 +30,29 @@ export async function api<T>(method: string, path: string, body?: unknown): Prom
   return parsed as T;
 }
 
-export interface Plant {
-  name: string;
-  timeZone: string;
-}
+/*
+ * The answers' shapes, derived from the server's one API contract (the zod schemas beside each
+ * route): type-only imports, erased from the bundle, so the pages and the server cannot disagree.
+ */
+import type { AlertSummary, AlertView, CheckSignalView, SignalView } from '../../server/alerts/contract.js';
+import type { SessionUser } from '../../server/auth/contract.js';
+import type { CheckAnswer, CheckView, StatusView } from '../../server/checks/contract.js';
+import type { Plant } from '../../server/health/contract.js';
+import type { LineView } from '../../server/lines/contract.js';
+import type { ProductView } from '../../server/products/contract.js';
 
-export interface User {
-  username: string;
-  displayName: string;
-  role: 'operator' | 'supervisor' | 'quality' | 'admin';
-}
-
-export interface Product {
-  id: number;
-  code: string;
-  name: string;
-  nominal: number;
-  unit: 'g' | 'kg';
-  target: number;
-  subgroupSize: number;
-  samplingMinutes: number;
-  tare: number;
-  sigma: number | null;
-  entryBasis: 'net' | 'gross';
-  tne: number | null;
-  t1: number | null;
-  t2: number | null;
-}
-
-export interface Line {
-  id: number;
-  code: string;
-  name: string;
-  product: Product | null;
-  runStartedAt: string | null;
-  status: 'steady' | 'watch' | 'act' | 'idle';
-}
-
-export interface Signal {
-  rule: string;
-  words: string;
-  severity: 'act' | 'watch';
-  checkId: number | null;
-  at: string;
-  direction: 'up' | 'down' | null;
-  size: { unit: number; sigma: number | null } | null;
-}
-
+export type { AlertSummary, CheckAnswer, Plant };
+export type User = SessionUser;
+export type Product = ProductView;
+export type Line = LineView;
+export type Signal = SignalView;
 /** A check's signals for one alert, as the check's answer gives them (the check and its time are the answer's own). */
-export interface CheckSignal {
-  alertId: number;
-  direction: 'up' | 'down' | null;
-  size: { unit: number; sigma: number | null } | null;
-  rules: { rule: string; severity: 'act' | 'watch'; onsetCheckId: number | null }[];
-}
-
-export interface Alert {
-  id: number;
-  lineId: number;
-  kind: 'mean-shift' | 'spread-up' | 'pack-below-t2' | 'check-overdue';
-  direction: 'up' | 'down' | null;
-  severity: 'act' | 'watch';
-  state: 'open' | 'acknowledged' | 'resolved';
-  rules: string[];
-  ruleWords: string[];
-  signals: Signal[];
-  signalCount: number;
-  openedAt: string;
-  updatedAt: string;
-  onset: { at: string | null; checkId: number | null };
-  changePoint: { at: string | null; checkId: number } | null;
-  size: { unit: number; sigma: number | null } | null;
-  acknowledged: { by: string; at: string; note: string } | null;
-  resolved: { by: string; at: string; cause: string; action: string } | null;
-}
-
-/** What a check's answer and its live message say of an alert: no signals and no notes (the full alert is on GET /api/alerts/:id). */
-export type AlertSummary = Omit<Alert, 'signals' | 'acknowledged' | 'resolved'> & { signalCount: number };
-
-export interface Check {
-  id: number;
-  lineId: number;
-  takenAt: string;
-  weights: number[];
-  n: number;
-  mean: number;
-  sd: number | null;
-  range: number;
-  se: number | null;
-  t: number | null;
-  p: number | null;
-  target: number;
-  belowT1: number;
-  belowT2: number;
-  revision: number;
-  revisesCheckId: number | null;
-}
-
-/** The server's own chart-limit shapes, shared by type only (erased from the bundle). */
-export type { MeanChartLimits as ChartLimits, SpreadChartLimits } from '../../server/stats/control-limits.js';
-import type { MeanChartLimits, SpreadChartLimits } from '../../server/stats/control-limits.js';
-
-export interface Status {
-  line: { id: number; code: string; name: string };
-  state: 'steady' | 'watch' | 'act' | 'idle';
-  product: Product | null;
-  limits: { source: string; centre: number; sigma: number; meanChart: MeanChartLimits; spreadChart: SpreadChartLimits } | null;
-  openAlerts: Alert[];
-  lastCheckAt: string | null;
-  nextCheckDue: string | null;
-  overdue: boolean;
-  falseAlarm: { words: string } | null;
-  now: string;
-}
+export type CheckSignal = CheckSignalView;
+export type Alert = AlertView;
+export type Check = CheckView;
+export type Status = StatusView;
+export type ChartLimits = NonNullable<StatusView['limits']>['meanChart'];
+export type SpreadChartLimits = NonNullable<StatusView['limits']>['spreadChart'];
 
 export const getPlant = () => api<{ plant: Plant }>('GET', '/api/plant').then((r) => r.plant);
 

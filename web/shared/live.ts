@@ -1,12 +1,9 @@
 /** The pages' live feed client: reconnects by itself and resumes from the last seq it saw. */
 
-export interface LiveMessage {
-  seq: number;
-  type: string;
-  at: string;
-  lineId?: number;
-  [key: string]: unknown;
-}
+import type { LiveEvent, LiveMessage as FeedMessage } from '../../server/live/messages.js';
+
+/** A numbered message of the feed (the server's live message contract): what the callbacks get. */
+export type LiveMessage = LiveEvent;
 
 export interface LiveCallbacks {
   onMessage: (m: LiveMessage) => void;
@@ -43,7 +40,7 @@ export class LiveClient {
     const socket = new WebSocket(`${scheme}://${location.host}/live${since}`);
     this.socket = socket;
     socket.onmessage = (event) => {
-      const m = JSON.parse(String(event.data)) as LiveMessage;
+      const m = JSON.parse(String(event.data)) as FeedMessage;
       this.lastMessageAt = Date.now();
       if (m.type === 'hello') {
         if (this.lastSeq === null) this.lastSeq = m.seq;

@@ -1,0 +1,13 @@
+import { z } from 'zod';
+import { severity } from '../shared/contract.js';
+import { ruleId } from '../alerts/contract.js';
+
+/** What the health, plant and rule catalogue routes answer. */
+
+export const healthAnswer = z.strictObject({ status: z.literal('ok'), version: z.string() });
+export const plantSchema = z.strictObject({ name: z.string(), timeZone: z.string() });
+export type Plant = z.output<typeof plantSchema>;
+export const plantAnswer = z.strictObject({ plant: plantSchema });
+/** A rule as the catalogue offers it, with the severity and on/off a product gets unless it says otherwise. */
+export const ruleDescriptionSchema = z.strictObject({ id: ruleId, words: z.string(), defaultSeverity: severity, defaultEnabled: z.boolean() });
+export const rulesAnswer = z.strictObject({ rules: z.array(ruleDescriptionSchema) });

@@ -1,0 +1,67 @@
+import { z } from 'zod';
+import { code, freeText, idParam } from '../shared/schemas.js';
+import { unit } from '../shared/contract.js';
+import { RULE_CATALOGUE, type RuleId } from '../stats/rules.js';
+
+/** What the products routes take and answer (API.md, "Product"). */
+
+const ruleIds = RULE_CATALOGUE.map((r) => r.id) as [RuleId, ...RuleId[]];
+const weight = z.number().finite().positive().max(1_000_000);
+
+/** A product's departures from the rule catalogue's defaults. */
+export const ruleOverrides = z.strictObject({
+  rules: z
+    .partialRecord(z.enum(ruleIds), z.strictObject({ enabled: z.boolean().optional(), severity: z.enum(['act', 'watch']).optional() }))
+    .optional(),
+  runLength: z.union([z.literal(8), z.literal(9)]).optional(),
+  ewma: z.strictObject({ lambda: z.number().gt(0).max(1).optional(), L: z.number().positive().max(10).optional() }).optional(),
+  cusum: z.strictObject({ k: z.number().min(0).max(5).optional(), h: z.number().positive().max(50).optional() }).optional(),
+});
+
+const productFields = {
+  code,
+  name: freeText(100),
+  nominal: weight,
+  unit,
+  target: weight,
+  subgroupSize: z.number().int().min(1).max(50),
+  samplingMinutes: z.number().int().min(1).max(24 * 60),
+  tare: z.number().finite().min(0).max(1_000_000).optional(),
+  windowSize: z.number().int().min(1).max(500).optional(),
+  sigma: weight.nullable().optional(),
+  lsl: weight.nullable().optional(),
+  usl: weight.nullable().optional(),
+  entryBasis: z.enum(['net', 'gross']).optional(),
+  costPerKg: z.number().finite().min(0).max(1_000_000).nullable().optional(),
+  rules: ruleOverrides.optional(),
+};
+export const productBody = z.strictObject(productFields);
+export const productPatch = z.strictObject(productFields).partial();
+export const productParams = z.strictObject({ productId: idParam });
+
+/** A product as the API shows it, with the TNE, T1 and T2 its nominal gives. */
+export const productViewSchema = z.strictObject({
+  id: z.number(),
+  code: z.string(),
+  name: z.string(),
+  nominal: z.number(),
+  unit,
+  target: z.number(),
+  subgroupSize: z.number(),
+  samplingMinutes: z.number(),
+  windowSize: z.number(),
+  tare: z.number(),
+  sigma: z.number().nullable(),
+  lsl: z.number().nullable(),
+  usl: z.number().nullable(),
+  entryBasis: z.enum(['net', 'gross']),
+  costPerKg: z.number().nullable(),
+  rules: ruleOverrides,
+  tne: z.number().nullable(),
+  t1: z.number().nullable(),
+  t2: z.number().nullable(),
+});
+export type ProductView = z.output<typeof productViewSchema>;
+
+export const productAnswer = z.strictObject({ product: productViewSchema });
+export const productListAnswer = z.strictObject({ products: z.array(productViewSchema) });
