@@ -116,7 +116,9 @@ function waitFor(child: ChildProcess, text: string, ms = 120_000): Promise<void>
 async function startHeft(file: string): Promise<{ child: ChildProcess; port: number; startupMs: number }> {
   const port = nextPort++;
   const started = performance.now();
-  const child = spawn(...node('server', ['--import', 'tsx', 'server/main.ts', '--db', file, '--port', String(port), '--log-level', 'silent']), { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'] });
+  // HEFT_BENCH_PROFILE=<dir>: each Heft server writes a CPU profile there (read it with bench/profile-top.ts)
+  const profile = process.env.HEFT_BENCH_PROFILE ? ['--cpu-prof', `--cpu-prof-dir=${process.env.HEFT_BENCH_PROFILE}`] : [];
+  const child = spawn(...node('server', [...profile, '--import', 'tsx', 'server/main.ts', '--db', file, '--port', String(port), '--log-level', 'silent']), { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'] });
   await waitFor(child, 'Heft at');
   return { child, port, startupMs: performance.now() - started };
 }
@@ -125,7 +127,8 @@ async function stop(child: ChildProcess): Promise<void> {
   if (child.exitCode !== null) return;
   const exited = new Promise<void>((r) => child.once('exit', () => r()));
   child.kill('SIGTERM');
-  await Promise.race([exited, new Promise((r) => setTimeout(r, 5000))]);
+  // a server writing its CPU profile on the way out needs longer
+  await Promise.race([exited, new Promise((r) => setTimeout(r, process.env.HEFT_BENCH_PROFILE ? 60_000 : 5000))]);
   if (child.exitCode === null) child.kill('SIGKILL');
 }
 
