@@ -3,7 +3,7 @@
  * A real server process on 127.0.0.1, driven from other processes; every loop is bounded in count
  * and time. Prints one table (medians, with min–max over the rounds) and writes bench/results.md.
  */
-import { spawn, type ChildProcess } from 'node:child_process';
+import { execFileSync, spawn, type ChildProcess } from 'node:child_process';
 import { randomUUID } from 'node:crypto';
 import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import http from 'node:http';
@@ -118,7 +118,7 @@ async function startHeft(file: string): Promise<{ child: ChildProcess; port: num
   const started = performance.now();
   // HEFT_BENCH_PROFILE=<dir>: each Heft server writes a CPU profile there (read it with bench/profile-top.ts)
   const profile = process.env.HEFT_BENCH_PROFILE ? ['--cpu-prof', `--cpu-prof-dir=${process.env.HEFT_BENCH_PROFILE}`] : [];
-  const child = spawn(...node('server', [...profile, '--import', 'tsx', 'server/main.ts', '--db', file, '--port', String(port), '--log-level', 'silent']), { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'] });
+  const child = spawn(...node('server', [...profile, 'dist/node/server/main.js', '--db', file, '--port', String(port), '--log-level', 'silent']), { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'] });
   await waitFor(child, 'Heft at');
   return { child, port, startupMs: performance.now() - started };
 }
@@ -285,7 +285,7 @@ async function startup(small: string, big: string): Promise<void> {
     loaded.push(rssMb(two.child.pid as number));
     await stop(two.child);
   }
-  addRow('start-up to first answer (5 y history vs 1 k)', b, s, 'ms', 0, 'process start, TypeScript load, migrate, rebuild line state', true);
+  addRow('start-up to first answer (5 y history vs 1 k)', b, s, 'ms', 0, 'process start (built JavaScript), migrate, rebuild line state', true);
   addRow('RSS with 1 M checks stored (vs idle with 1 k)', loaded, idle, 'MB', 1, '', true);
 }
 
@@ -408,6 +408,8 @@ async function exportsFigures(big: string): Promise<void> {
 
 const began = performance.now();
 await ensureWebBuilt();
+// the servers measured are the built JavaScript production runs (npm start), not the sources through a loader
+execFileSync(process.execPath, [join(ROOT, 'node_modules', 'typescript', 'bin', 'tsc'), '-p', join(ROOT, 'tsconfig.build.json')], { stdio: 'inherit' });
 say(`seeding in ${dir} …`);
 const small = join(dir, 'small.db');
 const big = join(dir, 'big.db');

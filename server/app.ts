@@ -27,6 +27,7 @@ import { livePlugin } from './live/routes.js';
 import { linesPlugin } from './lines/routes.js';
 import { createLineRepository } from './lines/repository.js';
 import { GroupCommitter } from './monitor/group-commit.js';
+import { DailyBackups } from './db/daily-backups.js';
 import type { LiveEvent } from './live/messages.js';
 import { Monitor } from './monitor/monitor.js';
 import { createMonitorStateRepository } from './monitor/state-repository.js';
@@ -34,6 +35,8 @@ import { productsPlugin } from './products/routes.js';
 import { exportsPlugin } from './exports/routes.js';
 import { reviewPlugin } from './review/routes.js';
 import { webPlugin } from './web/routes.js';
+import { registerOpenApi } from './openapi/plugin.js';
+import { VERSION } from './health/routes.js';
 import { createProductRepository } from './products/repository.js';
 
 export interface AppOptions {
@@ -45,11 +48,15 @@ export interface AppOptions {
   onLive?: (events: LiveEvent[]) => void;
   /** Sweep for overdue checks on a timer (off in tests, which call monitor.sweepOverdue() by hand). */
   overdueTimer?: boolean;
+  /** With config.backupDir: take the daily backup on a timer (off in tests, which call runIfDue by hand). */
+  backupTimer?: boolean;
 }
 
 declare module 'fastify' {
   interface FastifyInstance {
     heft: HeftContext;
+    /** The daily backups, when a backup folder is set. */
+    backups: DailyBackups | null;
   }
 }
 
@@ -124,7 +131,24 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
   await app.register(rateLimit, { global: false });
   installAccess(app, auth);
 
-  await app.register(healthPlugin, { plant: { name: config.plantName, timeZone: config.timeZone } });
+  await registerOpenApi(app, VERSION);
+  const backups = config.backupDir
+    ? new DailyBackups({
+        db,
+        dir: config.backupDir,
+        clock,
+        timeZone: config.timeZone,
+        keepDaily: config.backupKeepDaily,
+        keepWeekly: config.backupKeepWeekly,
+        log: (level, message, err) => (level === 'error' ? app.log.error({ err }, message) : app.log.info(message)),
+      })
+    : null;
+  app.decorate('backups', backups);
+  if (backups && options.backupTimer) {
+    backups.start();
+    app.addHook('onClose', async () => backups.stop());
+  }
+  await app.register(healthPlugin, { plant: { name: config.plantName, timeZone: config.timeZone }, lastBackup: () => backups?.last() ?? null });
   await app.register(authPlugin, { ctx });
   await app.register(linesPlugin, { ctx });
   await app.register(productsPlugin, { ctx });

@@ -8,6 +8,8 @@ import { createLineRepository } from './lines/repository.js';
 import { systemClock } from './clock.js';
 import { openDatabase } from './db/database.js';
 import { migrate } from './db/migrate.js';
+import { backupDatabase, restoreDatabase } from './db/backup.js';
+import { existsSync } from 'node:fs';
 import { DomainError } from './errors.js';
 
 const USAGE = `Usage: npm run heft -- <command> [options]
@@ -21,18 +23,56 @@ const USAGE = `Usage: npm run heft -- <command> [options]
   token create --name NAME --kind checks|board [--lines 1,2]
   token revoke --id N
   token list
+  backup --to FILE                            a verified copy of the database, taken while the server runs
+  restore --from FILE                         put a verified backup in the database's place (server stopped)
 
   --db FILE    the database (default ./data/heft.db, or HEFT_DB)
-  A secret not given with --secret is read from the HEFT_SECRET environment variable or from
-  standard input (one line), so it need not stand in the shell history.
+  A secret not given with --secret is read from HEFT_NEW_SECRET (or HEFT_SECRET), else asked for
+  twice at the terminal without echo, else read from standard input (one line), so it need not
+  stand in the shell history.
   Roles: ${ROLES.join(', ')}. Operators and supervisors use a PIN of 4+ digits; quality and admin
   a password of 12+ characters.
 `;
 
+/** Reads one line from the terminal without showing what is typed. */
+function askHidden(prompt: string): Promise<string> {
+  return new Promise((resolve, reject) => {
+    const input = process.stdin;
+    process.stderr.write(prompt);
+    input.setRawMode(true);
+    input.resume();
+    let typed = '';
+    const done = (error?: Error) => {
+      input.setRawMode(false);
+      input.pause();
+      input.off('data', onData);
+      process.stderr.write('\n');
+      if (error) reject(error);
+      else resolve(typed);
+    };
+    const onData = (chunk: Buffer) => {
+      for (const ch of chunk.toString('utf8')) {
+        if (ch === '\r' || ch === '\n') return done();
+        if (ch === '\u0003') return done(new Error('cancelled'));
+        if (ch === '\u007f' || ch === '\b') typed = typed.slice(0, -1);
+        else typed += ch;
+      }
+    };
+    input.on('data', onData);
+  });
+}
+
 async function readSecret(given: string | undefined): Promise<string> {
   if (given) return given;
-  if (process.env.HEFT_SECRET) return process.env.HEFT_SECRET;
-  if (process.stdin.isTTY) process.stderr.write('secret: ');
+  const fromEnv = process.env.HEFT_NEW_SECRET ?? process.env.HEFT_SECRET;
+  if (fromEnv) return fromEnv;
+  if (process.stdin.isTTY) {
+    const first = await askHidden('password or PIN: ');
+    const again = await askHidden('the same again: ');
+    if (first !== again) throw new Error('the two entries differ; nothing was changed');
+    if (!first) throw new Error('no secret given');
+    return first;
+  }
   const chunks: Buffer[] = [];
   for await (const chunk of process.stdin) chunks.push(chunk as Buffer);
   const line = Buffer.concat(chunks).toString('utf8').split(/\r?\n/)[0]?.trim() ?? '';
@@ -58,6 +98,8 @@ async function main(): Promise<void> {
       lines: { type: 'string' },
       id: { type: 'string' },
       address: { type: 'string' },
+      to: { type: 'string' },
+      from: { type: 'string' },
       help: { type: 'boolean', short: 'h' },
     },
   });
@@ -66,7 +108,25 @@ async function main(): Promise<void> {
     process.stdout.write(USAGE);
     return;
   }
-  const db = openDatabase(values.db ?? process.env.HEFT_DB ?? './data/heft.db');
+  const dbFile = values.db ?? process.env.HEFT_DB ?? './data/heft.db';
+  if (noun === 'restore') {
+    const report = restoreDatabase(need(values.from, '--from'), dbFile);
+    process.stdout.write(`restored ${dbFile} from ${values.from}: ${report.checks} checks, ${report.bytes} bytes; start the server to use it\n`);
+    return;
+  }
+  if (noun === 'backup') {
+    if (!existsSync(dbFile)) throw new Error(`no database at ${dbFile}`);
+    // its own connection; the server may keep taking checks meanwhile (WAL): one read snapshot is copied
+    const source = openDatabase(dbFile);
+    try {
+      const report = await backupDatabase(source, need(values.to, '--to'), 'all');
+      process.stdout.write(`backup ${report.file}: ${report.checks} checks, ${report.bytes} bytes, integrity ok\n`);
+    } finally {
+      source.close();
+    }
+    return;
+  }
+  const db = openDatabase(dbFile);
   migrate(db);
   const repo = createAuthRepository(db);
   const auth = createAuthService({ db, clock: systemClock, repo, audit: createAuditRepository(db), sessionIdleMs: 0, sessionMaxMs: 0 });

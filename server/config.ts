@@ -29,6 +29,9 @@ export const OPTIONS = {
   sessionMaxHours: { env: 'HEFT_SESSION_MAX_HOURS', help: 'a session ends this long after sign-in', schema: z.coerce.number().int().min(1).default(14) },
   signInPerMinute: { env: 'HEFT_SIGN_IN_PER_MINUTE', help: 'sign-in requests one client address may make a minute (wrong secrets are slowed down further per user and address)', schema: z.coerce.number().int().min(1).max(100000).default(20) },
   secureCookies: { env: 'HEFT_SECURE_COOKIES', help: 'mark the session cookie Secure (set when served over HTTPS)', schema: flag.default(false) },
+  backupDir: { env: 'HEFT_BACKUP_DIR', help: 'take a verified backup of the database into this folder once a day (none when unset)', schema: z.string().min(1).optional() },
+  backupKeepDaily: { env: 'HEFT_BACKUP_KEEP_DAILY', help: 'daily backups to keep', schema: z.coerce.number().int().min(1).max(3650).default(14) },
+  backupKeepWeekly: { env: 'HEFT_BACKUP_KEEP_WEEKLY', help: 'weekly backups to keep besides (the newest of each ISO week)', schema: z.coerce.number().int().min(0).max(520).default(8) },
   logLevel: { env: 'HEFT_LOG_LEVEL', help: 'fatal, error, warn, info, debug or silent', schema: z.enum(['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent']).default('info') },
 } as const;
 
@@ -90,9 +93,9 @@ export function parseConfig(argv: readonly string[], env: NodeJS.ProcessEnv, ove
 /** The --help text, generated from the options above. */
 export function helpText(command: string): string {
   const rows = Object.entries(OPTIONS).map(([name, option]) => {
-    const d = option.schema.def.defaultValue;
+    const d = 'defaultValue' in option.schema.def ? option.schema.def.defaultValue : undefined;
     const shown = typeof d === 'function' ? (d as () => unknown)() : d;
-    return `  --${kebab(name)}`.padEnd(28) + `${option.help}\n${' '.repeat(28)}env ${option.env}, default ${JSON.stringify(shown)}`;
+    return `  --${kebab(name)}`.padEnd(28) + `${option.help}\n${' '.repeat(28)}env ${option.env}, ${shown === undefined ? 'not set by default' : `default ${JSON.stringify(shown)}`}`;
   });
   return `Usage: ${command} [options]\n\nOptions (a flag wins over its environment variable):\n${rows.join('\n')}\n  --help                    this text\n`;
 }

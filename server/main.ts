@@ -7,6 +7,7 @@ import { systemClock } from './clock.js';
 import { ConfigError, helpText, parseConfig, type Config } from './config.js';
 import { openDatabase } from './db/database.js';
 import { migrate } from './db/migrate.js';
+import { databaseInUse, removePidFile, writePidFile } from './db/backup.js';
 import { ensureWebBuilt } from './web/build.js';
 import type { LiveEvent } from './live/messages.js';
 
@@ -15,8 +16,12 @@ async function prepareDemo(config: Config): Promise<void> {
     for (const suffix of ['', '-wal', '-shm']) rmSync(`${config.db}${suffix}`, { force: true });
   }
   if (existsSync(config.db)) return;
+  const running = databaseInUse(config.db);
+  if (running !== null) throw new Error(`another Heft server (process ${running}) has ${config.db} open`);
   const db = openDatabase(config.db, { busyTimeoutMs: config.busyTimeoutMs });
   migrate(db);
+  // so that a restore can tell the database is in use
+  writePidFile(config.db);
   const started = Date.now();
   process.stdout.write(`Making the demo database ${config.db} (${PLANT.name}, two weeks of hourly checks)…\n`);
   const summary = await generateDemo({ db, config, endAt: Date.now() });
@@ -52,8 +57,12 @@ async function main(): Promise<void> {
     process.stderr.write(`the pages could not be built (${err instanceof Error ? err.message : String(err)}); the API still runs\n`);
   }
 
+  const running = databaseInUse(config.db);
+  if (running !== null) throw new Error(`another Heft server (process ${running}) has ${config.db} open`);
   const db = openDatabase(config.db, { busyTimeoutMs: config.busyTimeoutMs });
   migrate(db);
+  // so that a restore can tell the database is in use
+  writePidFile(config.db);
   const live: ((events: LiveEvent[]) => void)[] = [];
   const app = await buildApp({
     db,
@@ -61,6 +70,7 @@ async function main(): Promise<void> {
     config,
     logger: { level: config.logLevel },
     overdueTimer: true,
+    backupTimer: true,
     onLive: (events) => {
       for (const listen of live) listen(events);
     },
@@ -79,20 +89,32 @@ async function main(): Promise<void> {
     stopSimulator();
     await app.close();
     db.close();
+    removePidFile(config.db);
     process.exit(0);
   };
   process.once('SIGTERM', () => void shutdown('SIGTERM'));
   process.once('SIGINT', () => void shutdown('SIGINT'));
 
   await app.listen({ port: config.port, host: config.host });
-  const url = `http://${config.host.includes(':') ? `[${config.host}]` : config.host}:${config.port}`;
+  // the port really bound (--port 0 asks the system for a free one)
+  const bound = (app.server.address() as { port: number } | null)?.port ?? config.port;
+  const url = `http://${config.host.includes(':') ? `[${config.host}]` : config.host}:${bound}`;
   if (config.demo) {
     process.stdout.write(
       `\nHeft demo at ${url}  (database ${config.db})\nDemo users (demo mode only):\n${DEMO_USERS.map((u) => `  ${u.role.padEnd(10)} ${u.username} / ${u.secret}`).join('\n')}\n` +
         `${config.simulator ? 'A simulated operator keys in a check on each line every ~20 s.\n' : ''}\n`,
     );
   } else {
-    process.stdout.write(`Heft at ${url}  (database ${config.db})\n`);
+    // one write, so whoever reads the start-up lines gets them whole
+    const noUsers = app.heft.auth.users().length === 0;
+    process.stdout.write(
+      `Heft at ${url}  (database ${config.db})\n` +
+        (noUsers
+          ? 'No one can sign in yet: this database has no users. Create the first admin with\n' +
+            `  npm run heft -- user add --role admin --username NAME --name "Full name" --db ${config.db}\n` +
+            '(it asks for the password twice, or takes it from HEFT_NEW_SECRET), then sign in and add the rest.\n'
+          : ''),
+    );
   }
 }
 

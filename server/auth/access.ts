@@ -31,6 +31,8 @@ declare module 'fastify' {
 }
 
 export const SESSION_COOKIE = 'heft_session';
+/** The API reference page and its files (served by @fastify/swagger-ui, whose routes declare no roles): public, like the pages. */
+export const PUBLIC_DOCS = '/api/docs';
 /** A wall screen's board token, kept in a cookie so the page's fetches and its WebSocket carry it. */
 export const BOARD_COOKIE = 'heft_board';
 
@@ -57,6 +59,7 @@ export function installAccess(app: FastifyInstance, auth: AuthService): void {
   const table: FastifyInstance['routeTable'] = [];
   app.decorate('routeTable', table);
   app.addHook('onRoute', (route) => {
+    if (!route.config?.roles && (route.url === PUBLIC_DOCS || route.url.startsWith(`${PUBLIC_DOCS}/`))) route.config = { ...route.config, roles: ['anyone'] };
     const roles = route.config?.roles;
     if (!Array.isArray(roles) || roles.length === 0) {
       throw new Error(`route ${String(route.method)} ${route.url} declares no roles (config.roles)`);

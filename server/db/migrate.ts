@@ -1,10 +1,10 @@
 import { createHash } from 'node:crypto';
 import { readdirSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { fileURLToPath } from 'node:url';
+import { fromRoot } from '../paths.js';
 import type { Db } from './database.js';
 
-export const MIGRATIONS_DIR = fileURLToPath(new URL('../../migrations/', import.meta.url));
+export const MIGRATIONS_DIR = fromRoot('migrations');
 
 export class MigrationError extends Error {
   override name = 'MigrationError';

@@ -1,10 +1,12 @@
 import { z } from 'zod';
-import { severity } from '../shared/contract.js';
+import { instant, severity } from '../shared/contract.js';
 import { ruleId } from '../alerts/contract.js';
 
 /** What the health, plant and rule catalogue routes answer. */
 
-export const healthAnswer = z.strictObject({ status: z.literal('ok'), version: z.string() });
+/** The newest backup the server knows of (null: no backup folder set, or none taken yet). */
+export const backupSchema = z.strictObject({ file: z.string(), at: instant, bytes: z.number(), checks: z.number().nullable() });
+export const healthAnswer = z.strictObject({ status: z.literal('ok'), version: z.string(), backup: backupSchema.nullable() });
 export const plantSchema = z.strictObject({ name: z.string(), timeZone: z.string() });
 export type Plant = z.output<typeof plantSchema>;
 export const plantAnswer = z.strictObject({ plant: plantSchema });

@@ -1,10 +1,10 @@
 import { existsSync, readdirSync, statSync } from 'node:fs';
 import { join } from 'node:path';
-import { fileURLToPath } from 'node:url';
+import { fromRoot } from '../paths.js';
 
-export const WEB_SOURCE = fileURLToPath(new URL('../../web/', import.meta.url));
-export const WEB_DIST = fileURLToPath(new URL('../../dist/web/', import.meta.url));
-const CONFIG = fileURLToPath(new URL('../../vite.config.ts', import.meta.url));
+export const WEB_SOURCE = fromRoot('web');
+export const WEB_DIST = fromRoot('dist', 'web');
+const CONFIG = fromRoot('vite.config.ts');
 
 function newest(dir: string): number {
   let latest = 0;

@@ -57,6 +57,14 @@ const MATRIX: Record<string, { who: Principal[]; url: string; payload?: object; 
   // a plain GET (no upgrade) of the WebSocket route: allowed callers get 404, the rest 401/403
   'GET /live': { who: BOARD, url: '/live', ok: 404 },
   'GET /api/plant': { who: ANYONE, url: '/api/plant', ok: 200 },
+  // the API's description and its reference page are public, like the pages (they hold no plant data)
+  'GET /api/openapi.json': { who: ANYONE, url: '/api/openapi.json', ok: 200 },
+  'GET /api/docs': { who: ANYONE, url: '/api/docs', ok: 200 },
+  'GET /api/docs/json': { who: ANYONE, url: '/api/docs/json', ok: 200 },
+  'GET /api/docs/yaml': { who: ANYONE, url: '/api/docs/yaml', ok: 200 },
+  'GET /api/docs/static/*': { who: ANYONE, url: '/api/docs/static/index.css', ok: 200 },
+  'GET /api/docs/static/index.html': { who: ANYONE, url: '/api/docs/static/index.html', ok: 302 },
+  'GET /api/docs/static/swagger-initializer.js': { who: ANYONE, url: '/api/docs/static/swagger-initializer.js', ok: 200 },
   // the pages themselves are public (built or not); the data they fetch is not
   'GET /': { who: ANYONE, url: '/', ok: PAGE },
   'GET /entry': { who: ANYONE, url: '/entry', ok: PAGE },

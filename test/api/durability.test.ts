@@ -1,3 +1,4 @@
+import { BUILT_SERVER } from '../build-server.js';
 import { spawn, type ChildProcess } from 'node:child_process';
 import { randomUUID } from 'node:crypto';
 import { mkdtempSync } from 'node:fs';
@@ -38,7 +39,7 @@ function prepare(file: string): string {
 
 function startServer(file: string, port: number): Promise<ChildProcess> {
   return new Promise((resolve, reject) => {
-    const child = spawn(process.execPath, ['--import', 'tsx', 'server/main.ts', '--db', file, '--port', String(port), '--log-level', 'silent'], {
+    const child = spawn(process.execPath, [BUILT_SERVER, '--db', file, '--port', String(port), '--log-level', 'silent'], {
       cwd: ROOT,
       stdio: ['ignore', 'pipe', 'pipe'],
     });

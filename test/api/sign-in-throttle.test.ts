@@ -1,3 +1,4 @@
+import { BUILT_CLI } from '../build-server.js';
 import { execFileSync } from 'node:child_process';
 import { describe, expect, it } from 'vitest';
 import { FIRST_WAIT_MS, guessesWithin, LOCK_MS, PAIR_LOCK_FAILURES, waitAfter } from '../../server/auth/throttle.js';
@@ -107,7 +108,7 @@ describe('sign-in throttling', () => {
     await t.app.heft.auth.addUser({ username: 'ana', displayName: 'Ana', role: 'operator', secret: '4321' }, 'test');
     await guessUntilLocked(t, 'ana', TABLET);
     expect((await signIn(t, 'ana', '4321', TABLET)).statusCode).toBe(423);
-    const cli = (...args: string[]) => execFileSync(process.execPath, ['--import', 'tsx', 'server/cli.ts', ...args, '--db', t.file], { encoding: 'utf8' });
+    const cli = (...args: string[]) => execFileSync(process.execPath, [BUILT_CLI, ...args, '--db', t.file], { encoding: 'utf8' });
     expect(cli('user', 'locks')).toMatch(new RegExp(`^ana\t${TABLET.replace(/\./g, '\\.')}\t10 failures\tlocked until`, 'm'));
     expect(cli('user', 'unlock', '--username', 'ana')).toMatch(/^cleared [1-9]\d* failure count/);
     expect((await signIn(t, 'ana', '4321', TABLET)).statusCode).toBe(200);
