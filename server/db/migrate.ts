@@ -68,10 +68,14 @@ export function migrate(db: Db, dir: string = MIGRATIONS_DIR): { applied: string
   );
   for (const file of files) {
     if (landed.has(file.version)) continue;
-    db.transaction(() => {
-      db.exec(file.sql);
-      record.run(file.version, file.name, file.checksum, new Date().toISOString());
-    }).immediate();
+    try {
+      db.transaction(() => {
+        db.exec(file.sql);
+        record.run(file.version, file.name, file.checksum, new Date().toISOString());
+      }).immediate();
+    } catch (err) {
+      throw new MigrationError(`migration ${file.name} failed, so the database was left as it was before it: ${err instanceof Error ? err.message : String(err)}`);
+    }
     applied.push(file.name);
   }
   return { applied };

@@ -42,7 +42,7 @@ describe('migrations', () => {
     cpSync(MIGRATIONS_DIR, copy, { recursive: true });
     writeFileSync(join(copy, '900_broken.sql'), 'CREATE TABLE half_done (x INTEGER);\nTHIS IS NOT SQL;\n');
     const db = openDatabase(join(dir, 'c.db'));
-    expect(() => migrate(db, copy)).toThrow();
+    expect(() => migrate(db, copy)).toThrow(/migration 900_broken\.sql failed, so the database was left as it was before it: .*syntax error/);
     expect(db.prepare("SELECT name FROM sqlite_master WHERE name = 'half_done'").get()).toBeUndefined();
     expect(db.prepare('SELECT COUNT(*) AS n FROM schema_migrations WHERE version = 900').get()).toEqual({ n: 0 });
     db.close();
