@@ -28,6 +28,7 @@ import { linesPlugin } from './lines/routes.js';
 import { createLineRepository } from './lines/repository.js';
 import { GroupCommitter } from './monitor/group-commit.js';
 import { DailyBackups } from './db/daily-backups.js';
+import { pruneOnce } from './db/housekeeping.js';
 import type { LiveEvent } from './live/messages.js';
 import { Monitor } from './monitor/monitor.js';
 import { createMonitorStateRepository } from './monitor/state-repository.js';
@@ -66,6 +67,7 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
   const app = Fastify({
     logger: options.logger ?? false,
     bodyLimit: 256 * 1024,
+    trustProxy: config.trustProxy,
     forceCloseConnections: true,
     // one line per request drowns what matters on a line-side box; errors and warnings still log
     logController: new LogController({ disableRequestLogging: true }),
@@ -111,6 +113,13 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
     sessionIdleMs: config.sessionIdleMinutes * 60_000,
     sessionMaxMs: config.sessionMaxHours * 3_600_000,
   });
+  const housekeeping = {
+    live: repos.live,
+    auth: repos.auth,
+    liveKeepMs: config.liveKeepDays * 86_400_000,
+    sessionIdleMs: config.sessionIdleMinutes * 60_000,
+    sessionMaxMs: config.sessionMaxHours * 3_600_000,
+  };
   const ctx: HeftContext = { db, clock, config, repos, monitor, commits: new GroupCommitter(monitor), auth };
   app.decorate('heft', ctx);
   const hub = new LiveHub({ live: repos.live, now: () => clock.now() });
@@ -163,14 +172,20 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
 
   if (options.overdueTimer) {
     let sweeps = 0;
+    let pruning = false;
     const timer = setInterval(() => {
       try {
         monitor.sweepOverdue();
-        // once an hour: live messages older than a week are only needed by nobody
-        sweeps += 1;
-        if (sweeps % 240 === 0) repos.live.prune(clock.now() - 7 * 24 * 3_600_000);
       } catch (err) {
         app.log.error({ err }, 'overdue sweep failed');
+      }
+      // every ten minutes: live messages past the resume window and sessions no one can use any more
+      sweeps += 1;
+      if (sweeps % 40 === 0 && !pruning) {
+        pruning = true;
+        pruneOnce({ ...housekeeping, clock })
+          .catch((err) => app.log.error({ err }, 'housekeeping failed'))
+          .finally(() => (pruning = false));
       }
     }, 15_000);
     timer.unref();

@@ -97,6 +97,10 @@ export function createAuthRepository(db: Db) {
   const touchSession = db.prepare('UPDATE sessions SET last_seen_at = @at WHERE id_hash = @idHash');
   const endSession = db.prepare('UPDATE sessions SET ended_at = @at WHERE id_hash = @idHash AND ended_at IS NULL');
   const endUserSessions = db.prepare('UPDATE sessions SET ended_at = @at WHERE user_id = @userId AND ended_at IS NULL');
+  const pruneSessions = db.prepare(
+    `DELETE FROM sessions WHERE rowid IN (SELECT rowid FROM sessions
+       WHERE ended_at IS NOT NULL OR last_seen_at < @idleBefore OR created_at < @startedBefore LIMIT @limit)`,
+  );
   const insertToken = db.prepare(
     `INSERT INTO tokens (name, kind, token_hash, line_ids, created_by, created_at)
      VALUES (@name, @kind, @hash, @lineIds, @createdBy, @at)`,
@@ -107,6 +111,10 @@ export function createAuthRepository(db: Db) {
   const revokeToken = db.prepare('UPDATE tokens SET revoked_at = @at WHERE id = @id AND revoked_at IS NULL');
 
   return {
+    /** Deletes up to `limit` sessions that can no longer be used (ended, idle too long, or too old); returns how many. */
+    pruneSessions(idleBefore: number, startedBefore: number, limit: number): number {
+      return pruneSessions.run({ idleBefore, startedBefore, limit }).changes;
+    },
     user(id: number): User | null {
       const row = userById.get(id) as UserRow | undefined;
       return row ? toUser(row) : null;

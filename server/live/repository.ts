@@ -15,7 +15,10 @@ export function createLiveRepository(db: Db) {
   const countAfter = db.prepare('SELECT COUNT(*) AS n FROM live_messages WHERE seq > ?');
   const latest = db.prepare("SELECT COALESCE(MAX(seq), 0) AS seq FROM live_messages");
   const oldest = db.prepare('SELECT MIN(seq) AS seq FROM live_messages');
-  const prune = db.prepare('DELETE FROM live_messages WHERE at < ? AND seq < (SELECT MAX(seq) FROM live_messages)');
+  const prune = db.prepare(
+    `DELETE FROM live_messages WHERE seq IN (SELECT seq FROM live_messages
+       WHERE at < @before AND seq < (SELECT MAX(seq) FROM live_messages) ORDER BY seq LIMIT @limit)`,
+  );
   return {
     /** Call inside the transaction that makes the change; returns the message with its seq. */
     append(message: { type: string; at: number; lineId: number | null; body: Record<string, unknown> }): LiveMessage {
@@ -35,9 +38,9 @@ export function createLiveRepository(db: Db) {
     oldestSeq(): number | null {
       return (oldest.get() as { seq: number | null }).seq;
     },
-    /** Drops messages older than the cut-off, always keeping the newest so seq never restarts. */
-    prune(before: number): number {
-      return prune.run(before).changes;
+    /** Drops up to `limit` messages older than the cut-off, oldest first, always keeping the newest so seq never restarts. */
+    prune(before: number, limit: number): number {
+      return prune.run({ before, limit }).changes;
     },
   };
 }

@@ -18,7 +18,8 @@ function newest(dir: string): number {
 /** Builds the pages with Vite when dist/web is missing or older than web/; returns whether it built. */
 export async function ensureWebBuilt(log: (message: string) => void = () => {}): Promise<boolean> {
   const marker = join(WEB_DIST, 'index.html');
-  if (existsSync(marker) && statSync(marker).mtimeMs >= newest(WEB_SOURCE)) return false;
+  // an installed build (a container image) ships the pages without their sources
+  if (existsSync(marker) && (!existsSync(WEB_SOURCE) || statSync(marker).mtimeMs >= newest(WEB_SOURCE))) return false;
   log('building the pages with Vite…');
   const { build } = await import('vite');
   await build({ configFile: CONFIG, logLevel: 'warn' });

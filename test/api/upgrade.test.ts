@@ -52,7 +52,7 @@ function writeData(db: Db, state: Awaited<ReturnType<typeof detectorState>>): vo
     const at = now + i * HOUR;
     const mean = 503 + (i % 3) / 10;
     check.run(i, randomUUID(), at, at, mean, mean);
-    weightsWithMean(mean).forEach((w, k) => pack.run(i, k, w));
+    for (const [k, w] of weightsWithMean(mean).entries()) pack.run(i, k, w);
   }
   if (!has(db, 'alerts')) return;
   db.prepare(
