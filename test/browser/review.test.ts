@@ -76,6 +76,10 @@ describe.skipIf(!HAVE_CHROMIUM)('the quality manager’s review', () => {
     expect(onScreen).toContain('brown rice flows unevenly through the weigher');
     expect(onScreen).toContain('bag split on the jaw');
     expect(onScreen).toMatch(/Check overdue/);
+    // the capability rows in the product's own words, and the index against T1 explained (no LSL on the demo products)
+    expect(onScreen).toMatch(/Check to check \(σ in force: /);
+    expect(onScreen).toContain('All packs together');
+    expect(onScreen).toMatch(/Cpk is taken against T1 .* allows about 2\.5 % below T1/);
     await page.screenshot({ path: `${ARTIFACTS}review.png`, fullPage: true });
     await page.emulateMedia({ media: 'print' });
     const pdf = await page.pdf({ format: 'A4', printBackground: false });

@@ -68,18 +68,28 @@ function renderProduct(section: LineSection, p: ProductSection): HTMLElement {
     requestAnimationFrame(() => meanChart(chartBox, Math.min(1000, Math.max(480, chartBox.clientWidth - 16)), 220, meanChartData(points, p.limits!.centre, p.limits!.sigma, signalled)));
   }
   const cap = p.capability;
+  // prepackages often have no lower specification limit: the index is then taken against T1
+  const vsT1 = p.product.lsl === null;
   box.append(el('h4', {}, 'Capability'));
   if ('refused' in cap) box.append(el('p', { class: 'refused' }, `Not computed: ${cap.refused}.`));
   else
     box.append(
       table(
-        ['', 'σ', 'Cp / Pp', 'Cpk / Ppk'],
+        ['', 'σ', 'Cp / Pp', vsT1 ? 'Cpk / Ppk vs T1' : 'Cpk / Ppk'],
         [
-          [`Within checks (${cap.within.source})`, `${fmt(cap.within.sigma, d)} ${u}`, indexCell(cap.within.cp, cap.within.unavailable.cp), indexCell(cap.within.cpk)],
-          ['Overall (all packs)', `${fmt(cap.overall.sigma, d)} ${u}`, indexCell(cap.overall.cp, cap.overall.unavailable.cp), indexCell(cap.overall.cpk)],
+          [`Check to check (σ in force: ${cap.within.source})`, `${fmt(cap.within.sigma, d)} ${u}`, indexCell(cap.within.cp, cap.within.unavailable.cp), indexCell(cap.within.cpk)],
+          ['All packs together', `${fmt(cap.overall.sigma, d)} ${u}`, indexCell(cap.overall.cp, cap.overall.unavailable.cp), indexCell(cap.overall.cpk)],
         ],
       ),
-      el('p', { class: 'muted' }, `Against a lower limit of ${cap.lsl} ${u}${cap.usl ? ` and an upper limit of ${cap.usl} ${u}` : ''}. Intervals: chi-square for Cp and Pp, Bissell (1990) for Cpk and Ppk.`),
+      el(
+        'p',
+        { class: 'muted' },
+        vsT1
+          ? `No lower specification limit is set for this product, so Cpk is taken against T1 (${cap.lsl} ${u})${cap.usl ? ` and the upper limit of ${cap.usl} ${u}` : ''}. ` +
+              'Cpk = 1 against T1 means about 0.135 % of packs below T1, far stricter than the average system, which allows about 2.5 % below T1 (Cpk ≈ 0.65). ' +
+              'Intervals: chi-square for Cp and Pp, Bissell (1990) for Cpk and Ppk.'
+          : `Against a lower limit of ${cap.lsl} ${u}${cap.usl ? ` and an upper limit of ${cap.usl} ${u}` : ''}. Intervals: chi-square for Cp and Pp, Bissell (1990) for Cpk and Ppk.`,
+      ),
     );
   const nq = p.netQuantity;
   box.append(el('h4', {}, 'Net quantity (average system)'));
