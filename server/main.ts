@@ -11,17 +11,20 @@ import { databaseInUse, removePidFile, writePidFile } from './db/backup.js';
 import { ensureWebBuilt } from './web/build.js';
 import type { LiveEvent } from './live/messages.js';
 
+/** Two servers on one database would each judge checks on their own memory of the lines: refuse the second. */
+function refuseIfInUse(dbFile: string): void {
+  const running = databaseInUse(dbFile);
+  if (running !== null) throw new Error(`another Heft server (process ${running}) has ${dbFile} open`);
+}
+
 async function prepareDemo(config: Config): Promise<void> {
+  refuseIfInUse(config.db);
   if (config.reset) {
     for (const suffix of ['', '-wal', '-shm']) rmSync(`${config.db}${suffix}`, { force: true });
   }
   if (existsSync(config.db)) return;
-  const running = databaseInUse(config.db);
-  if (running !== null) throw new Error(`another Heft server (process ${running}) has ${config.db} open`);
   const db = openDatabase(config.db, { busyTimeoutMs: config.busyTimeoutMs });
   migrate(db);
-  // so that a restore can tell the database is in use
-  writePidFile(config.db);
   const started = Date.now();
   process.stdout.write(`Making the demo database ${config.db} (${PLANT.name}, two weeks of hourly checks)…\n`);
   const summary = await generateDemo({ db, config, endAt: Date.now() });
@@ -57,8 +60,7 @@ async function main(): Promise<void> {
     process.stderr.write(`the pages could not be built (${err instanceof Error ? err.message : String(err)}); the API still runs\n`);
   }
 
-  const running = databaseInUse(config.db);
-  if (running !== null) throw new Error(`another Heft server (process ${running}) has ${config.db} open`);
+  refuseIfInUse(config.db);
   const db = openDatabase(config.db, { busyTimeoutMs: config.busyTimeoutMs });
   migrate(db);
   // so that a restore can tell the database is in use

@@ -1,7 +1,6 @@
-import Database from 'better-sqlite3';
 import { copyFileSync, existsSync, readdirSync, readFileSync, renameSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { basename, dirname, join } from 'node:path';
-import type { Db } from './database.js';
+import { openReadOnly, type Db } from './database.js';
 
 /** What a finished backup (or a restored file) holds, as the CLI and GET /api/health report it. */
 export interface BackupReport {
@@ -22,7 +21,7 @@ export function verifyCopy(file: string): number {
   if (!existsSync(file)) throw new BackupError(`${file} does not exist`);
   let copy: Db;
   try {
-    copy = new Database(file, { readonly: true, fileMustExist: true });
+    copy = openReadOnly(file);
   } catch (err) {
     throw new BackupError(`${file} is not a SQLite database: ${err instanceof Error ? err.message : String(err)}`);
   }

@@ -38,6 +38,15 @@ test('when the server first starts on a new database, then it says how to make t
     // no default users outside demo mode
     const nobody = await fetch(`${first.url}/api/session`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ username: 'admin', secret: 'admin' }) });
     expect(nobody.status).toBe(401);
+    // a second server on the same database is refused: each would judge checks on its own memory of the lines
+    const second = await start(file).then(
+      async (s) => {
+        await s.stop();
+        return 'started';
+      },
+      (err: Error) => err.message,
+    );
+    expect(second).toMatch(/Heft could not start: another Heft server \(process \d+\) has .*heft\.db open/);
     await first.stop();
 
     const added = execFileSync(process.execPath, [BUILT_CLI, 'user', 'add', '--role', 'admin', '--username', 'ria.admin', '--name', 'Ria Admin', '--db', file], {
@@ -46,12 +55,12 @@ test('when the server first starts on a new database, then it says how to make t
     });
     expect(added).toContain('added ria.admin (admin)');
 
-    const second = await start(file);
-    expect(second.out).not.toContain('No one can sign in');
-    const signIn = await fetch(`${second.url}/api/session`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ username: 'ria.admin', secret: 'a long first secret' }) });
+    const again = await start(file);
+    expect(again.out).not.toContain('No one can sign in');
+    const signIn = await fetch(`${again.url}/api/session`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ username: 'ria.admin', secret: 'a long first secret' }) });
     expect(signIn.status).toBe(200);
     expect((await signIn.json()).user).toEqual({ username: 'ria.admin', displayName: 'Ria Admin', role: 'admin' });
-    await second.stop();
+    await again.stop();
   } finally {
     removeDir(dir);
   }
