@@ -36,13 +36,20 @@ const EVENTS_SQL = `SELECT a.*, l.code AS line_code, p.code AS product_code FROM
   JOIN lines l ON l.id = a.line_id LEFT JOIN runs r ON r.id = a.run_id LEFT JOIN products p ON p.id = r.product_id
   WHERE a.opened_at >= @from AND a.opened_at < @to AND (@lineId IS NULL OR a.line_id = @lineId) ORDER BY a.opened_at, a.id`;
 
-const CHECKS_SQL = `SELECT c.*, l.code AS line_code, p.code AS product_code, p.unit AS unit FROM checks c
+// a check is named by the product's settings version in force when it was taken (its code may have changed since)
+const CHECKS_SQL = `SELECT c.*, l.code AS line_code, COALESCE(v.code, p.code) AS product_code, COALESCE(v.unit, p.unit) AS unit,
+    COALESCE(v.version, 1) AS product_version FROM checks c
   JOIN lines l ON l.id = c.line_id JOIN products p ON p.id = c.product_id
+  LEFT JOIN product_versions v ON v.product_id = c.product_id AND v.version = (SELECT w.version FROM product_versions w
+    WHERE w.product_id = c.product_id AND (w.valid_from <= c.taken_at OR w.version = 1) ORDER BY w.valid_from <= c.taken_at DESC, w.version DESC LIMIT 1)
   WHERE c.taken_at >= @from AND c.taken_at < @to AND (@lineId IS NULL OR c.line_id = @lineId) ORDER BY c.taken_at, c.id`;
 
 const PACKS_SQL = `SELECT c.id AS check_id, c.taken_at, c.revision, c.superseded_by, k.position, k.net, k.gross, l.code AS line_code,
-    p.code AS product_code, p.unit, p.nominal, p.unit AS product_unit
+    COALESCE(v.code, p.code) AS product_code, COALESCE(v.unit, p.unit) AS unit, COALESCE(v.nominal, p.nominal) AS nominal,
+    COALESCE(v.unit, p.unit) AS product_unit
   FROM packs k JOIN checks c ON c.id = k.check_id JOIN lines l ON l.id = c.line_id JOIN products p ON p.id = c.product_id
+  LEFT JOIN product_versions v ON v.product_id = c.product_id AND v.version = (SELECT w.version FROM product_versions w
+    WHERE w.product_id = c.product_id AND (w.valid_from <= c.taken_at OR w.version = 1) ORDER BY w.valid_from <= c.taken_at DESC, w.version DESC LIMIT 1)
   WHERE c.taken_at >= @from AND c.taken_at < @to AND (@lineId IS NULL OR c.line_id = @lineId) ORDER BY c.taken_at, c.id, k.position`;
 
 export const EXPORTS: Record<ExportKind, ExportSpec> = {
@@ -93,7 +100,7 @@ export const EXPORTS: Record<ExportKind, ExportSpec> = {
   },
   checks: {
     columns: [
-      'check_id', 'line', 'product', 'unit', 'taken_at_utc', 'taken_at_local', 'recorded_at_utc', 'basis', 'n', 'mean', 'sd', 'range', 'se', 't', 'df', 'p',
+      'check_id', 'line', 'product', 'product_version', 'unit', 'taken_at_utc', 'taken_at_local', 'recorded_at_utc', 'basis', 'n', 'mean', 'sd', 'range', 'se', 't', 'df', 'p',
       'ci95_low', 'ci95_high', 'target', 'below_t1', 'below_t2', 'revision', 'revises_check_id', 'superseded_by', 'revision_reason', 'entered_by', 'note',
     ],
     *rows(db, range, tz) {
@@ -103,6 +110,7 @@ export const EXPORTS: Record<ExportKind, ExportSpec> = {
           check_id: c.id as number,
           line: c.line_code as string,
           product: c.product_code as string,
+          product_version: c.product_version as number,
           unit: c.unit as string,
           taken_at_utc: iso(c.taken_at as number),
           taken_at_local: local(c.taken_at as number, tz),

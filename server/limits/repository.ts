@@ -53,6 +53,8 @@ export function createLimitsRepository(db: Db) {
   const latest = db.prepare('SELECT * FROM limit_versions WHERE line_id = ? AND product_id = ? ORDER BY id DESC LIMIT 1');
   const history = db.prepare('SELECT * FROM limit_versions WHERE line_id = ? ORDER BY id');
   const byId = db.prepare('SELECT * FROM limit_versions WHERE id = ?');
+  const inForceAt = db.prepare('SELECT * FROM limit_versions WHERE line_id = ? AND product_id = ? AND approved_at <= ? ORDER BY approved_at DESC, id DESC LIMIT 1');
+  const approvedDuring = db.prepare('SELECT approved_at AS at FROM limit_versions WHERE line_id = ? AND product_id = ? AND approved_at > ? AND approved_at < ? ORDER BY approved_at');
   const insert = db.prepare(
     `INSERT INTO limit_versions (line_id, product_id, centre, sigma, method, baseline_from, baseline_to, baseline_checks,
        approved_by, approved_at, note)
@@ -63,6 +65,15 @@ export function createLimitsRepository(db: Db) {
     latest(lineId: number, productId: number): LimitsVersion | null {
       const row = latest.get(lineId, productId) as Row | undefined;
       return row ? toVersion(row) : null;
+    },
+    /** The version approved last at or before `at`: the one that judged a check taken then. */
+    inForceAt(lineId: number, productId: number, at: number): LimitsVersion | null {
+      const row = inForceAt.get(lineId, productId, at) as Row | undefined;
+      return row ? toVersion(row) : null;
+    },
+    /** When versions were approved inside (from, to). */
+    approvalsDuring(lineId: number, productId: number, from: number, to: number): number[] {
+      return (approvedDuring.all(lineId, productId, from, to) as { at: number }[]).map((r) => r.at);
     },
     get(id: number): LimitsVersion | null {
       const row = byId.get(id) as Row | undefined;

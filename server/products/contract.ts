@@ -1,6 +1,6 @@
 import { z } from 'zod';
 import { code, freeText, idParam } from '../shared/schemas.js';
-import { unit } from '../shared/contract.js';
+import { instant, unit } from '../shared/contract.js';
 import { RULE_CATALOGUE, type RuleId } from '../stats/rules.js';
 
 /** What the products routes take and answer (API.md, "Product"). */
@@ -60,8 +60,14 @@ export const productViewSchema = z.strictObject({
   tne: z.number().nullable(),
   t1: z.number().nullable(),
   t2: z.number().nullable(),
+  /** The settings version in force now; every change of a setting makes the next one. */
+  version: z.number().int(),
 });
 export type ProductView = z.output<typeof productViewSchema>;
 
 export const productAnswer = z.strictObject({ product: productViewSchema });
+/** Every settings version of a product, oldest first, with the time each came into force. */
+export const productVersionsAnswer = z.strictObject({
+  versions: z.array(z.strictObject({ version: z.number().int(), validFrom: instant, product: productViewSchema })),
+});
 export const productListAnswer = z.strictObject({ products: z.array(productViewSchema) });

@@ -5,7 +5,7 @@ import { ADMIN, BOARD_READ, requireActor } from '../auth/access.js';
 import { actorName } from '../auth/service.js';
 import type { HeftContext } from '../context.js';
 import { badField, notFound } from '../errors.js';
-import { productAnswer, productBody, productListAnswer, productParams, productPatch } from './contract.js';
+import { productAnswer, productBody, productListAnswer, productParams, productPatch, productVersionsAnswer } from './contract.js';
 import { productView } from './views.js';
 import type { Product, ProductFields } from './repository.js';
 import { createProductService } from './service.js';
@@ -46,6 +46,12 @@ export const productsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (f
     const product = repos.products.get(req.params.productId);
     if (!product) throw notFound(`product ${req.params.productId}`);
     return { product: productView(product) };
+  });
+
+  app.get('/api/products/:productId/versions', { config: { roles: BOARD_READ }, schema: { params: productParams, response: { 200: productVersionsAnswer } } }, async (req) => {
+    if (!repos.products.get(req.params.productId)) throw notFound(`product ${req.params.productId}`);
+    const versions = repos.products.versions(req.params.productId);
+    return { versions: versions.map((v) => ({ version: v.version, validFrom: new Date(v.validFrom).toISOString(), product: productView(v.product) })) };
   });
 
   app.post('/api/products', { config: { roles: ADMIN }, schema: { body: productBody, response: { 201: productAnswer } } }, async (req, reply) => {

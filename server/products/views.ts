@@ -23,5 +23,6 @@ export function productView(p: Product): ProductView {
     tne: p.tne,
     t1: p.t1,
     t2: p.t2,
+    version: p.version,
   };
 }

@@ -27,8 +27,9 @@ export const capabilitySchema = z.union([
   z.strictObject({
     lsl: z.number(),
     usl: z.number().nullable(),
-    within: z.strictObject({ sigma: z.number(), source: z.string(), ...indices }),
-    overall: z.strictObject({ sigma: z.number(), ...indices }),
+    /** σ in force; ν null when σ is taken as known (configured or set from a standard). */
+    within: z.strictObject({ sigma: z.number(), source: z.string(), degreesOfFreedom: z.number().nullable(), interval: z.string(), ...indices }),
+    overall: z.strictObject({ sigma: z.number(), degreesOfFreedom: z.number(), interval: z.string(), ...indices }),
   }),
 ]);
 export type CapabilityView = z.output<typeof capabilitySchema>;
@@ -69,9 +70,22 @@ export const productSectionSchema = z.strictObject({
     rule: z.string(),
     savingPerPack: z.number().nullable(),
     saving: z.number().nullable(),
+    /** The reference test on a lot of an hour's output at the advised target: its plan, the mean's allowance λ·σ and the chance to pass each criterion. */
+    referenceTest: z
+      .strictObject({
+        lotSize: z.number().nullable(),
+        sampleSize: z.number(),
+        factor: z.number(),
+        allowance: z.number(),
+        passMean: z.number(),
+        passCount: z.number(),
+      })
+      .nullable(),
   }),
   points: z.array(z.strictObject({ checkId: z.number(), at: instant, mean: z.number(), n: z.number(), sd: z.number().nullable(), range: z.number() })),
   limits: z.strictObject({ centre: z.number(), sigma: z.number() }).nullable(),
+  /** The part of the range this section covers and the settings that judged it: a change of either starts a new section. */
+  settings: z.strictObject({ from: instant, to: instant, productVersion: z.number(), productVersionFrom: instant, limitsVersion: z.number().nullable() }),
 });
 export type ProductSection = z.output<typeof productSectionSchema>;
 

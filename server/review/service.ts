@@ -4,11 +4,12 @@ import { DomainError, notFound } from '../errors.js';
 import type { Line } from '../lines/repository.js';
 import { falseAlarmFigure } from '../monitor/false-alarm-cache.js';
 import { alertViewFrom } from '../monitor/views.js';
-import type { Product } from '../products/repository.js';
-import { capability } from '../stats/capability.js';
+import type { LimitsVersion } from '../limits/repository.js';
+import type { Product, ProductVersion } from '../products/repository.js';
+import { capability, capabilityFromSources, sigmaDegreesOfFreedom, varianceOfMeanFromChecks, type SigmaUncertainty } from '../stats/capability.js';
 import { estimateSigma, defaultSigmaMethod } from '../stats/control-limits.js';
 import { mean, sampleSd } from '../stats/descriptive.js';
-import { averageSystemPosition, lowestTarget } from '../stats/net-quantity.js';
+import { averageSystemPosition, lowestTarget, referenceTestPassChance, referenceTestPlan } from '../stats/net-quantity.js';
 import { resolveRuleSet } from '../stats/rule-set.js';
 import { fTest, welchTest } from '../stats/two-sample.js';
 import type { CapabilityView, Comparison, LineSection, ProductSection, Review } from './contract.js';
@@ -45,24 +46,47 @@ export function createReviewService(ctx: HeftContext) {
   const repo = createReviewRepository(ctx.db);
   const { repos } = ctx;
 
-  function productSection(line: Line, product: Product, from: number, to: number, lineAlerts: StoredAlert[]): ProductSection {
-    const checks = repo.checks(line.id, product.id, from, to);
+  /** The within-check σ in force for a part of the range, where it comes from, and how uncertain that makes it. */
+  function withinSigma(product: Product, limits: LimitsVersion | null, checks: CheckMoments[]): { sigma: number; source: string; uncertainty: SigmaUncertainty; interval: string } | null {
+    const LABEL: Record<string, string> = { rbar: 'R̄/d2', sbar: 's̄/c4', pooled: 'pooled s', mrbar: 'MR̄/d2', standard: 'set from a standard' };
+    if (limits) {
+      const head = `approved limits v${limits.id}, ${LABEL[limits.method] ?? limits.method}`;
+      if (limits.method === 'standard' || limits.baselineChecks === null || limits.baselineChecks < 2) {
+        return { sigma: limits.sigma, source: head, uncertainty: { kind: 'known' }, interval: 'σ taken as known (set, not estimated): only the mean is uncertain' };
+      }
+      const n = repos.products.versionAt(product.id, limits.approvedAt)?.product.subgroupSize ?? product.subgroupSize;
+      const df = sigmaDegreesOfFreedom(limits.method, Array(limits.baselineChecks).fill(n));
+      return {
+        sigma: limits.sigma,
+        source: `${head} of ${limits.baselineChecks} baseline checks`,
+        uncertainty: { kind: 'estimated', df },
+        interval: `σ from the baseline with ν ≈ ${df.toFixed(0)} (Patnaik), the mean from this range's check means`,
+      };
+    }
+    if (product.sigma !== null) {
+      return { sigma: product.sigma, source: `the product's configured σ (settings v${product.version})`, uncertainty: { kind: 'known' }, interval: 'σ configured, taken as known: only the mean is uncertain (Student’s t on the check means)' };
+    }
+    if (checks.length < 2 || !checks.some((c) => c.n >= 2 || product.subgroupSize === 1)) return null;
+    const method = defaultSigmaMethod(product.subgroupSize);
+    const estimated = estimateSigma(checks, method);
+    const df = sigmaDegreesOfFreedom(method, checks.map((c) => c.n));
+    return {
+      sigma: estimated.sigma,
+      source: `estimated from this range (${LABEL[method]})`,
+      uncertainty: { kind: 'estimated', df },
+      interval: `σ from this range's ${checks.length} checks with ν ≈ ${df.toFixed(0)} (Patnaik), the mean from their check means`,
+    };
+  }
+
+  function productSection(line: Line, version: ProductVersion, limits: LimitsVersion | null, from: number, to: number, lineAlerts: StoredAlert[], checks: CheckMoments[]): ProductSection {
+    const product = version.product;
     const packs = repo.packs(line.id, product.id, from, to);
     const unit = product.unit;
     const toKg = unit === 'g' ? 1 / 1000 : 1;
     const overallMean = packs.length ? mean(packs) : null;
     const overallSd = sampleSd(packs);
-
-    // the within-subgroup σ in force: approved limits, else the product's σ, else estimated from the range
-    const version = repos.limits.latest(line.id, product.id);
-    const estimated = checks.length >= 2 && checks.some((c) => c.n >= 2) ? estimateSigma(checks, defaultSigmaMethod(product.subgroupSize)) : null;
-    const within = version
-      ? { sigma: version.sigma, source: `approved limits (version ${version.id}, ${version.method})` }
-      : product.sigma !== null
-        ? { sigma: product.sigma, source: "the product's configured σ" }
-        : estimated
-          ? { sigma: estimated.sigma, source: `estimated from this range (${estimated.method})` }
-          : null;
+    const within = withinSigma(product, limits, checks);
+    const meanVariance = varianceOfMeanFromChecks(checks.map((c) => c.mean));
 
     const lsl = product.lsl ?? product.t1;
     const usl = product.usl;
@@ -72,15 +96,20 @@ export function createReviewService(ctx: HeftContext) {
       capabilityResult = { refused: `only ${checks.length} checks in the range; at least ${MIN_CAPABILITY_CHECKS} are needed for an index that means something` };
     } else if (unstable.length > 0) {
       capabilityResult = { refused: `the process was not stable: ${unstable.length} act-level alert${unstable.length > 1 ? 's were' : ' was'} still open at the end of the range (alert ${unstable.map((a) => a.id).join(', ')}); an index from an unstable process means nothing` };
-    } else if (lsl === null || overallMean === null || overallSd === null || !within) {
+    } else if (lsl === null || overallMean === null || overallSd === null || !within || meanVariance === null) {
       capabilityResult = { refused: 'no specification limit (and no T1) or no spread to judge against' };
     } else {
-      const df = checks.reduce((acc, c) => acc + Math.max(0, c.n - 1), 0);
       capabilityResult = {
         lsl,
         usl,
-        within: { sigma: within.sigma, source: within.source, ...capability(overallMean, within.sigma, packs.length, df, lsl, usl) },
-        overall: { sigma: overallSd, ...capability(overallMean, overallSd, packs.length, packs.length - 1, lsl, usl) },
+        within: {
+          sigma: within.sigma,
+          source: within.source,
+          degreesOfFreedom: within.uncertainty.kind === 'known' ? null : within.uncertainty.df,
+          interval: within.interval,
+          ...capabilityFromSources(overallMean, within.sigma, { value: meanVariance, df: checks.length - 1 }, within.uncertainty, lsl, usl),
+        },
+        overall: { sigma: overallSd, degreesOfFreedom: packs.length - 1, interval: `Bissell (1990) and chi-square on all ${packs.length} packs (ν = ${packs.length - 1})`, ...capability(overallMean, overallSd, packs.length, packs.length - 1, lsl, usl) },
       };
     }
 
@@ -94,6 +123,22 @@ export function createReviewService(ctx: HeftContext) {
     const giveawayPerPack = overallMean === null ? null : overallMean - product.nominal;
     const sigmaForTarget = within?.sigma ?? overallSd;
     const lowest = product.t1 !== null && product.t2 !== null && sigmaForTarget !== null ? lowestTarget(product.nominal, product.t1, product.t2, sigmaForTarget) : null;
+    // an inspector's reference test on a lot of an hour's output, judged at the advised target
+    const plan = referenceTestPlan(line.packsPerHour ?? 1000);
+    const referenceTest =
+      plan && lowest !== null && sigmaForTarget !== null && product.t1 !== null
+        ? (() => {
+            const chance = referenceTestPassChance(plan, lowest, sigmaForTarget, product.nominal, product.t1);
+            return {
+              lotSize: line.packsPerHour,
+              sampleSize: plan.sampleSize,
+              factor: plan.factor,
+              allowance: plan.factor * sigmaForTarget,
+              passMean: chance.mean,
+              passCount: chance.count,
+            };
+          })()
+        : null;
     const savingPerPack = lowest !== null && overallMean !== null ? Math.max(0, overallMean - lowest) : null;
     const money = (perPack: number | null) => (perPack === null || packsMade === null || product.costPerKg === null ? null : perPack * toKg * packsMade * product.costPerKg);
 
@@ -118,28 +163,59 @@ export function createReviewService(ctx: HeftContext) {
         rule: 'max(Qn, T1 + 1.96σ, T2 + 3.72σ): about 2.5 % below T1 and 1 in 10,000 below T2 (common practice for the average system)',
         savingPerPack,
         saving: money(savingPerPack),
+        referenceTest,
       },
       points: checks.map((c: CheckMoments) => ({ checkId: c.id, at: new Date(c.takenAt).toISOString(), mean: c.mean, n: c.n, sd: c.sd, range: c.range })),
-      limits: within ? { centre: version?.centre ?? product.target, sigma: within.sigma } : null,
+      limits: within ? { centre: limits?.centre ?? product.target, sigma: within.sigma } : null,
+      settings: {
+        from: new Date(from).toISOString(),
+        to: new Date(to).toISOString(),
+        productVersion: version.version,
+        productVersionFrom: new Date(version.validFrom).toISOString(),
+        limitsVersion: limits?.id ?? null,
+      },
     };
+  }
+
+  /**
+   * The range cut where a product's settings or the line's limits for it changed, so that every check is
+   * judged by the settings and limits in force when it was taken.
+   */
+  function settingsParts(lineId: number, productIds: number[], from: number, to: number) {
+    const parts: { version: ProductVersion; limits: LimitsVersion | null; from: number; to: number }[] = [];
+    for (const productId of productIds) {
+      const cuts = new Set<number>([from, to]);
+      for (const v of repos.products.versionsDuring(productId, from, to)) if (v.validFrom > from) cuts.add(v.validFrom);
+      for (const at of repos.limits.approvalsDuring(lineId, productId, from, to)) cuts.add(at);
+      const sorted = [...cuts].sort((a, b) => a - b);
+      for (let i = 0; i + 1 < sorted.length; i += 1) {
+        const a = sorted[i] as number;
+        const b = sorted[i + 1] as number;
+        const version = repos.products.versionAt(productId, a);
+        if (version) parts.push({ version, limits: repos.limits.inForceAt(lineId, productId, a), from: a, to: b });
+      }
+    }
+    return parts;
   }
 
   function lineSection(line: Line, from: number, to: number): LineSection {
     const alerts = repos.alerts.overlapping(line.id, from, to);
     const inRange = alerts.filter((a) => a.openedAt >= from && a.openedAt < to);
-    const productIds = repo.productsIn(line.id, from, to);
-    const products = productIds.map((id) => repos.products.get(id)).filter((p): p is Product => p !== null);
-    const sections = products.map((p) => productSection(line, p, from, to, alerts));
+    const sections: ProductSection[] = [];
     let due = 0;
-    for (const p of products) due += Math.floor(minutesRunning(ctx, line.id, p.id, from, to) / p.samplingMinutes);
+    let predicted = 0;
+    for (const part of settingsParts(line.id, repo.productsIn(line.id, from, to), from, to)) {
+      const p = part.version.product;
+      due += minutesRunning(ctx, line.id, p.id, part.from, part.to) / p.samplingMinutes;
+      const checks = repo.checks(line.id, p.id, part.from, part.to);
+      if (checks.length === 0) continue;
+      sections.push(productSection(line, part.version, part.limits, part.from, part.to, alerts, checks));
+      predicted += checks.length / falseAlarmFigure(resolveRuleSet(p.rules), p.subgroupSize, p.samplingMinutes).arlChecks;
+    }
+    due = Math.floor(due + 1e-9);
     const taken = sections.reduce((acc, s) => acc + s.checks, 0);
     const days = Math.max((Math.min(to, ctx.clock.now()) - from) / DAY, 1 / 24);
     const shiftAlerts = inRange.filter((a) => a.kind === 'mean-shift' || a.kind === 'spread-up');
-    let predicted = 0;
-    for (const [i, p] of products.entries()) {
-      const figure = falseAlarmFigure(resolveRuleSet(p.rules), p.subgroupSize, p.samplingMinutes);
-      predicted += (sections[i]?.checks ?? 0) / figure.arlChecks;
-    }
     const events = inRange.map((a) => ({
       ...alertViewFrom(repos.alerts, a),
       minutesToAcknowledge: a.acknowledgedAt === null ? null : (a.acknowledgedAt - a.openedAt) / MINUTE,

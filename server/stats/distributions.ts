@@ -49,3 +49,8 @@ export function fCdf(x: number, df1: number, df2: number): number {
 export function logGamma(x: number): number {
   return jStat.gammaln(x);
 }
+
+/** Noncentral Student's t cumulative distribution F(x; ν, δ) (jstat's Poisson-weighted incomplete-beta series). */
+export function noncentralTCdf(x: number, df: number, ncp: number): number {
+  return jStat.noncentralt.cdf(x, df, ncp);
+}

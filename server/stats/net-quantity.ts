@@ -1,4 +1,4 @@
-import { normalCdf } from './distributions.js';
+import { noncentralTCdf, normalCdf, studentTQuantile } from './distributions.js';
 
 export interface AverageSystemPosition {
   packs: number;
@@ -54,4 +54,63 @@ export function averageSystemPosition(packs: readonly number[], nominal: number,
  */
 export function lowestTarget(nominal: number, t1: number, t2: number, sigma: number): number {
   return Math.max(nominal, t1 + 1.96 * sigma, t2 + 3.72 * sigma);
+}
+
+/** One double-sampling plan of the reference test for packs checked without opening them. */
+export interface ReferenceTestPlan {
+  /** Packs in each of the two samples. */
+  sampleSize: number;
+  /** First sample: accept at or below, reject at or above (packs below T1). */
+  firstAccept: number;
+  firstReject: number;
+  /** Both samples together: accept at or below, reject at or above. */
+  secondAccept: number;
+  secondReject: number;
+  /** λ = t₀.₉₉₅,ₙ₋₁/√n: the sample mean may fall λ·s below Qn and pass. */
+  factor: number;
+}
+
+/**
+ * The reference test's plan for a lot (the packs of one batch; at the packer's premises, at most an
+ * hour's output) by Directive 76/211/EEC Annex II and UK SI 2006/659 Schedule 2: 30 + 30 for 100–500
+ * packs, 50 + 50 for 501–3 200, 80 + 80 above; null below 100, where every pack is checked.
+ */
+export function referenceTestPlan(lotSize: number): ReferenceTestPlan | null {
+  if (lotSize < 100) return null;
+  const [sampleSize, firstAccept, firstReject, secondAccept, secondReject] =
+    lotSize <= 500 ? [30, 1, 3, 4, 5] : lotSize <= 3200 ? [50, 2, 5, 6, 7] : [80, 3, 7, 8, 9];
+  return { sampleSize, firstAccept, firstReject, secondAccept, secondReject, factor: studentTQuantile(0.995, sampleSize - 1) / Math.sqrt(sampleSize) };
+}
+
+function binomialPmf(k: number, n: number, p: number): number {
+  if (p <= 0) return k === 0 ? 1 : 0;
+  if (p >= 1) return k === n ? 1 : 0;
+  let logC = 0;
+  for (let i = 1; i <= k; i += 1) logC += Math.log((n - k + i) / i);
+  return Math.exp(logC + k * Math.log(p) + (n - k) * Math.log1p(-p));
+}
+
+/** P(accept) of a double-sampling plan at a share p of packs below T1: the plan's operating characteristic (Montgomery, SQC §15.3). */
+export function doublePlanAcceptance(plan: ReferenceTestPlan, p: number): number {
+  const n = plan.sampleSize;
+  let accept = 0;
+  for (let d1 = 0; d1 <= plan.firstAccept; d1 += 1) accept += binomialPmf(d1, n, p);
+  for (let d1 = plan.firstAccept + 1; d1 < plan.firstReject; d1 += 1) {
+    let second = 0;
+    for (let d2 = 0; d2 <= plan.secondAccept - d1; d2 += 1) second += binomialPmf(d2, n, p);
+    accept += binomialPmf(d1, n, p) * second;
+  }
+  return accept;
+}
+
+/**
+ * The chance that a lot with mean μ and pack σ passes the reference test: the mean criterion
+ * x̄ ≥ Qn − λ·s, i.e. a noncentral t on n − 1 with δ = (μ − Qn)√n/σ at or above −t₀.₉₉₅ (Directive
+ * 76/211/EEC Annex II §2), and the count of packs below T1 by the plan's operating characteristic.
+ */
+export function referenceTestPassChance(plan: ReferenceTestPlan, mu: number, sigma: number, nominal: number, t1: number): { mean: number; count: number } {
+  const n = plan.sampleSize;
+  const delta = ((mu - nominal) * Math.sqrt(n)) / sigma;
+  const mean = 1 - noncentralTCdf(-studentTQuantile(0.995, n - 1), n - 1, delta);
+  return { mean: Math.min(1, Math.max(0, mean)), count: doublePlanAcceptance(plan, normalCdf((t1 - mu) / sigma)) };
 }

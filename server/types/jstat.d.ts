@@ -10,6 +10,8 @@ declare module 'jstat' {
     normal: ContinuousDistribution;
     chisquare: ContinuousDistribution;
     centralF: ContinuousDistribution;
+    /** Noncentral t: cdf(x, dof, ncp). */
+    noncentralt: { cdf(x: number, dof: number, ncp: number): number };
     gammaln(x: number): number;
     gammafn(x: number): number;
     /** The regularised incomplete beta function I_x(a, b). */

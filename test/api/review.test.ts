@@ -17,7 +17,11 @@ interface ProductReview {
   packs: number;
   mean: number;
   sd: number;
-  capability: { refused?: string; within?: { sigma: number; cpk: { value: number; ci95: [number, number] } }; overall?: { cpk: { value: number } } };
+  capability: {
+    refused?: string;
+    within?: { sigma: number; source: string; degreesOfFreedom: number | null; cpk: { value: number; ci95: [number, number] } };
+    overall?: { cpk: { value: number; ci95: [number, number] } };
+  };
   netQuantity: { meetsMean: boolean; meetsT2: boolean; belowT1: number };
   giveaway: { perPack: number; percentOfNominal: number; cost: number | null; packsMade: number };
   targetAdvice: { lowestTarget: number; savingPerPack: number };
@@ -74,7 +78,7 @@ describe('the week review', () => {
     expect(product.packs).toBe(300);
   });
 
-  it('when capability is computed, then Cpk matches the formula worked independently, with Bissell’s interval', async () => {
+  it('when capability is computed against a configured σ, then Cpk matches the formula worked independently and its interval is the mean’s only', async () => {
     const res = await t.app.inject({ method: 'GET', url: `/api/review?${q(start, mid)}`, headers: { cookie: t.cookies.quality } });
     const p = res.json().review.lines[0].products[0] as ProductReview;
     const packs = (t.db.prepare('SELECT p.net FROM packs p JOIN checks c ON c.id = p.check_id WHERE c.taken_at < ?').all(mid) as { net: number }[]).map((r) => r.net);
@@ -83,9 +87,19 @@ describe('the week review', () => {
     // within σ in force: the product's configured 2 g; lower limit T1 = 485 g; no upper limit
     const cpk = (m - 485) / (3 * 2);
     expect(p.capability.within?.cpk.value).toBeCloseTo(cpk, 10);
-    const half = 1.959964 * Math.sqrt(1 / (9 * packs.length) + (cpk * cpk) / (2 * (packs.length - 1)));
-    expect(p.capability.within?.cpk.ci95[0]).toBeCloseTo(cpk - half, 5);
-    expect(p.capability.overall?.cpk.value).toBeCloseTo((m - 485) / (3 * s), 10);
+    // a configured σ is known: the interval is (x̄ ± t·SE − T1)/3σ with SE from the 30 check means
+    // (Student's t on 29 df = 2.0452, from Student's t table; the clustered mean's SE, Cochran §9.2)
+    const checkMeans = (t.db.prepare('SELECT mean FROM checks WHERE taken_at < ? ORDER BY taken_at').all(mid) as { mean: number }[]).map((r) => r.mean);
+    const se = ss.sampleStandardDeviation(checkMeans) / Math.sqrt(checkMeans.length);
+    const half = (2.0452 * se) / (3 * 2);
+    expect(p.capability.within?.cpk.ci95[0]).toBeCloseTo(cpk - half, 4);
+    expect(p.capability.within?.cpk.ci95[1]).toBeCloseTo(cpk + half, 4);
+    expect(p.capability.within?.degreesOfFreedom).toBeNull();
+    // all packs together: Bissell (1990) on the 150 packs
+    const ppk = (m - 485) / (3 * s);
+    expect(p.capability.overall?.cpk.value).toBeCloseTo(ppk, 10);
+    const bissell = 1.959964 * Math.sqrt(1 / (9 * packs.length) + (ppk * ppk) / (2 * (packs.length - 1)));
+    expect(p.capability.overall?.cpk.ci95[0]).toBeCloseTo(ppk - bissell, 5);
     // giveaway: (mean − 500 g) per pack; 1000 packs an hour for the run's hours in range; 2 per kg
     expect(p.giveaway.perPack).toBeCloseTo(m - 500, 10);
     expect(p.giveaway.percentOfNominal).toBeCloseTo(((m - 500) / 500) * 100, 10);

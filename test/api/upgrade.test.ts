@@ -42,6 +42,13 @@ function writeData(db: Db, state: Awaited<ReturnType<typeof detectorState>>): vo
   const now = START;
   db.prepare("INSERT INTO lines (id, code, name, packs_per_hour, created_at, updated_at) VALUES (1, 'L1', 'Line 1', 1000, ?, ?)").run(now, now);
   db.prepare("INSERT INTO products (id, code, name, nominal, unit, target, subgroup_size, sampling_minutes, sigma, created_at, updated_at) VALUES (1, 'P-L1', 'Bag 500 g', 500, 'g', 503, 5, 60, 2, ?, ?)").run(now, now);
+  // from 009 on, the code keeps every product's settings as versions
+  if (has(db, 'product_versions')) {
+    db.prepare(
+      `INSERT INTO product_versions (product_id, version, valid_from, code, name, nominal, unit, target, tare, subgroup_size, sampling_minutes, window_size, sigma, lsl, usl, entry_basis, cost_per_kg, rules)
+       SELECT id, 1, created_at, code, name, nominal, unit, target, tare, subgroup_size, sampling_minutes, window_size, sigma, lsl, usl, entry_basis, cost_per_kg, rules FROM products`,
+    ).run();
+  }
   db.prepare('INSERT INTO runs (id, line_id, product_id, started_at) VALUES (1, 1, 1, ?)').run(now);
   const check = db.prepare(
     `INSERT INTO checks (id, line_id, run_id, product_id, client_id, taken_at, recorded_at, basis, n, mean, sd, range, target, below_t1, below_t2, window_checks, window_n, window_mean, window_sd)
@@ -94,6 +101,9 @@ describe('upgrades', () => {
         const checks = (await t.app.inject({ method: 'GET', url: '/api/lines/1/checks?limit=1000', headers: admin })).json().checks as { id: number; weights: number[] }[];
         expect(checks.map((c) => c.id)).toEqual(Array.from({ length: CHECKS }, (_, i) => i + 1));
         expect(checks.every((c) => c.weights.length === 5)).toBe(true);
+        // the product's settings as they stood are its first version (migration 009 fills it in for older databases)
+        const versions = (await t.app.inject({ method: 'GET', url: '/api/products/1/versions', headers: admin })).json().versions as { version: number; product: { target: number } }[];
+        expect(versions.map((v) => [v.version, v.product.target])).toEqual([[1, 503]]);
         const status = (await t.app.inject({ method: 'GET', url: '/api/lines/1/status', headers: admin })).json().status;
         const alerts = (await t.app.inject({ method: 'GET', url: '/api/alerts', headers: admin })).json().alerts as { id: number; signalCount: number; signals: unknown[] }[];
         if (level >= 3) {

@@ -38,6 +38,8 @@ function table(head: string[], rows: (string | Node)[][], numeric: number[] = []
   );
 }
 
+const pct = (x: number) => `${(100 * x).toFixed(x > 0.999 ? 2 : 1)} %`;
+
 function fact(label: string, value: string | Node): HTMLElement {
   return el('div', { class: 'fact' }, el('div', { class: 'label' }, label), el('div', { class: 'value' }, value));
 }
@@ -47,10 +49,28 @@ function indexCell(i: Index | null | undefined, reason?: string): string {
   return `${i.value.toFixed(2)} (95 % CI ${i.ci95[0].toFixed(2)}–${i.ci95[1].toFixed(2)})`;
 }
 
+/** How the 95 % intervals were found, for the words under the capability table. */
+function intervalWords(cap: Extract<ProductSection['capability'], { within: unknown }>): string {
+  const within =
+    cap.within.degreesOfFreedom === null
+      ? `Check to check: ${cap.within.interval}, so Cp has no interval and Cpk's is the mean's only.`
+      : `Check to check: ${cap.within.interval}; chi-square on ν for Cp, the delta method (Bissell 1990's form) for Cpk.`;
+  return `95 % intervals. ${within} All packs together: ${cap.overall.interval}.`;
+}
+
 function renderProduct(section: LineSection, p: ProductSection): HTMLElement {
   const u = p.product.unit;
   const d = decimals(u);
   const box = el('div', { class: 'product-report' }, el('h3', {}, `${p.product.code} — ${p.product.name}`));
+  const st = p.settings;
+  box.append(
+    el(
+      'p',
+      { class: 'muted settings-used' },
+      `${dateTime(st.from, plant.timeZone)} to ${dateTime(st.to, plant.timeZone)}, judged by product settings v${st.productVersion} (in force since ${dateTime(st.productVersionFrom, plant.timeZone)})` +
+        (st.limitsVersion === null ? ' and no approved limits.' : ` and approved limits v${st.limitsVersion}.`),
+    ),
+  );
   box.append(
     el(
       'div',
@@ -61,7 +81,7 @@ function renderProduct(section: LineSection, p: ProductSection): HTMLElement {
     ),
   );
   if (p.limits && p.points.length > 0) {
-    const chartBox = el('div', { class: 'chart-box' }, el('div', { class: 'muted' }, 'Mean of each check with its limits (±3σ/√n) and zones'));
+    const chartBox = el('div', { class: 'chart-box' }, el('div', { class: 'muted' }, 'Mean of each check with its limits (±3σ/√n, solid) and its ±1σ and ±2σ zones (shaded); ◇ marks a check that signalled'));
     box.append(chartBox);
     const points: ChartPoint[] = p.points.map((x) => ({ checkId: x.checkId, at: Date.parse(x.at) / 1000, mean: x.mean, n: x.n, sd: x.sd, range: x.range }));
     const signalled = new Set(section.events.flatMap((e) => e.signals.map((s) => s.checkId ?? -1)));
@@ -77,7 +97,7 @@ function renderProduct(section: LineSection, p: ProductSection): HTMLElement {
       table(
         ['', 'σ', 'Cp / Pp', vsT1 ? 'Cpk / Ppk vs T1' : 'Cpk / Ppk'],
         [
-          [`Check to check (σ in force: ${cap.within.source})`, `${fmt(cap.within.sigma, d)} ${u}`, indexCell(cap.within.cp, cap.within.unavailable.cp), indexCell(cap.within.cpk)],
+          [`Check to check (σ in force: ${cap.within.source})`, `${fmt(cap.within.sigma, d)} ${u}${cap.within.degreesOfFreedom === null ? ', known' : `, ν ≈ ${cap.within.degreesOfFreedom.toFixed(0)}`}`, indexCell(cap.within.cp, cap.within.unavailable.cp), indexCell(cap.within.cpk)],
           ['All packs together', `${fmt(cap.overall.sigma, d)} ${u}`, indexCell(cap.overall.cp, cap.overall.unavailable.cp), indexCell(cap.overall.cpk)],
         ],
       ),
@@ -87,8 +107,8 @@ function renderProduct(section: LineSection, p: ProductSection): HTMLElement {
         vsT1
           ? `No lower specification limit is set for this product, so Cpk is taken against T1 (${cap.lsl} ${u})${cap.usl ? ` and the upper limit of ${cap.usl} ${u}` : ''}. ` +
               'Cpk = 1 against T1 means about 0.135 % of packs below T1, far stricter than the average system, which allows about 2.5 % below T1 (Cpk ≈ 0.65). ' +
-              'Intervals: chi-square for Cp and Pp, Bissell (1990) for Cpk and Ppk.'
-          : `Against a lower limit of ${cap.lsl} ${u}${cap.usl ? ` and an upper limit of ${cap.usl} ${u}` : ''}. Intervals: chi-square for Cp and Pp, Bissell (1990) for Cpk and Ppk.`,
+              intervalWords(cap)
+          : `Against a lower limit of ${cap.lsl} ${u}${cap.usl ? ` and an upper limit of ${cap.usl} ${u}` : ''}. ${intervalWords(cap)}`,
       ),
     );
   const nq = p.netQuantity;
@@ -117,9 +137,29 @@ function renderProduct(section: LineSection, p: ProductSection): HTMLElement {
         ['Giveaway (mean − nominal)', g.perPack === null ? '—' : `${g.perPack.toFixed(d)} ${u} (${fmt(g.percentOfNominal)} % of nominal)`, g.cost === null ? (g.packsMade === null ? 'set the line’s packs per hour to see the cost' : 'set the product’s cost per kg to see the cost') : `${g.cost.toFixed(2)} (currency of the cost per kg), ${Math.round(g.packsMade ?? 0)} packs in ${g.hoursRunning.toFixed(1)} h`],
         [`Lowest target the σ of ${fmt(t.sigma, d)} ${u} allows`, t.lowestTarget === null ? '—' : `${t.lowestTarget.toFixed(d)} ${u}`, ''],
         ['Saving at that target', t.savingPerPack === null ? '—' : `${t.savingPerPack.toFixed(d)} ${u}`, t.saving === null ? '—' : t.saving.toFixed(2)],
+        ...(t.referenceTest && t.lowestTarget !== null
+          ? [
+              [
+                `Reference test at that target (${t.referenceTest.sampleSize} + ${t.referenceTest.sampleSize} packs, lot of ${t.referenceTest.lotSize === null ? 'an assumed 1,000' : Math.round(t.referenceTest.lotSize)} packs)`,
+                `allowance ${t.referenceTest.factor.toFixed(3)}·s = ${t.referenceTest.allowance.toFixed(d)} ${u}`,
+                `passes ${pct(t.referenceTest.passMean)} (mean), ${pct(t.referenceTest.passCount)} (packs below T1)`,
+              ],
+            ]
+          : []),
       ],
     ),
     el('p', { class: 'muted' }, `Lowest target: ${t.rule}.`),
+    ...(t.referenceTest
+      ? [
+          el(
+            'p',
+            { class: 'muted' },
+            `The inspector's reference test judges a sample's mean, not the true one: it passes while the sample mean is no more than ${t.referenceTest.factor.toFixed(3)}·s (t₀.₉₉₅/√n) below the nominal, ` +
+              `so a lot whose mean sits exactly at the nominal passes 99.5 % of the time. The figures above are that test's chances at the lowest target; aim higher where they are too low for you.`,
+          ),
+        ]
+      : []),
+    el('p', { class: 'caution' }, "An aid to the packer's own checks: the authority's reference test and the local regulations prevail."),
   );
   return box;
 }

@@ -41,9 +41,48 @@ export function meanChartData(points: readonly ChartPoint[], centre: number, sig
   ];
 }
 
+/** A hollow diamond on every signalled check (series `signal`), drawn over the line; the caption's ◇. */
+function signalDiamonds(seriesIndex: number, size: number): uPlot.Plugin {
+  return {
+    hooks: {
+      draw: (u) => {
+        const xs = u.data[0];
+        const ys = u.data[seriesIndex];
+        if (!ys) return;
+        const ctx = u.ctx;
+        const r = size * uPlot.pxRatio;
+        ctx.save();
+        ctx.strokeStyle = css('--act');
+        ctx.fillStyle = css('--card');
+        ctx.lineWidth = 2 * uPlot.pxRatio;
+        for (let i = 0; i < ys.length; i += 1) {
+          const y = ys[i];
+          const x = xs[i];
+          if (y === null || y === undefined || x === undefined) continue;
+          const cx = u.valToPos(x, 'x', true);
+          const cy = u.valToPos(y, 'y', true);
+          ctx.beginPath();
+          ctx.moveTo(cx, cy - r);
+          ctx.lineTo(cx + r, cy);
+          ctx.lineTo(cx, cy + r);
+          ctx.lineTo(cx - r, cy);
+          ctx.closePath();
+          ctx.fill();
+          ctx.stroke();
+        }
+        ctx.restore();
+      },
+    },
+  };
+}
+
+/**
+ * The limits solid in the text colour, the centre thin and muted, the ±1σ and ±2σ zones as faint
+ * bands, and signalled checks as hollow diamonds: status colours stay for status.
+ */
 export function meanChart(target: HTMLElement, width: number, height: number, data: uPlot.AlignedData, compact = false): uPlot {
-  const limit = { stroke: css('--act'), width: 2, points: { show: false } };
-  const zone = (dash: number[]) => ({ stroke: css('--muted'), width: 1, dash, points: { show: false } });
+  const limit = { stroke: css('--fg'), width: compact ? 1.5 : 2, points: { show: false } };
+  const zone = { stroke: 'transparent', width: 0, points: { show: false } };
   return new uPlot(
     {
       width,
@@ -57,13 +96,18 @@ export function meanChart(target: HTMLElement, width: number, height: number, da
         { label: 'mean', stroke: css('--fg'), width: 2, points: { show: true, size: compact ? 4 : 6 } },
         { label: 'upper limit', ...limit },
         { label: 'lower limit', ...limit },
-        { label: 'centre', stroke: css('--steady'), width: 1, points: { show: false } },
-        { label: '+2σ', ...zone([6, 4]) },
-        { label: '−2σ', ...zone([6, 4]) },
-        { label: '+1σ', ...zone([2, 4]) },
-        { label: '−1σ', ...zone([2, 4]) },
-        { label: 'signal', stroke: css('--act'), width: 0, points: { show: true, size: compact ? 9 : 12, fill: css('--act'), stroke: css('--act') }, paths: () => null },
+        { label: 'centre', stroke: css('--muted'), width: 1, points: { show: false } },
+        { label: '±2σ zone', ...zone },
+        { label: '−2σ', ...zone },
+        { label: '±1σ zone', ...zone },
+        { label: '−1σ', ...zone },
+        { label: 'signal ◇', stroke: css('--act'), width: 0, points: { show: false }, paths: () => null },
       ],
+      bands: [
+        { series: [5, 6], fill: css('--zone') },
+        { series: [7, 8], fill: css('--zone') },
+      ],
+      plugins: [signalDiamonds(9, compact ? 5 : 7)],
     },
     data,
     target,
@@ -87,7 +131,7 @@ export function spreadChart(target: HTMLElement, width: number, height: number, 
       series: [
         {},
         { label: chart === 'S' ? 'sd' : chart === 'R' ? 'range' : 'moving range', stroke: css('--fg'), width: 2, points: { show: true, size: 6 } },
-        { label: 'upper limit', stroke: css('--act'), width: 2, points: { show: false } },
+        { label: 'upper limit', stroke: css('--fg'), width: 2, points: { show: false } },
       ],
     },
     [points.map((p) => p.at), values, points.map((p) => ucl(p.n))],
