@@ -80,6 +80,14 @@ describe.skipIf(!HAVE_CHROMIUM)('the quality manager’s review', () => {
     expect(onScreen).toMatch(/Check to check \(σ in force: /);
     expect(onScreen).toContain('All packs together');
     expect(onScreen).toMatch(/Cpk is taken against T1 .* allows about 2\.5 % below T1/);
+    // each stretch names the settings that judged it; the oats line's baseline limits came two days in
+    expect(onScreen).toMatch(/judged by product settings v1 \(in force since .*\) and no approved limits\./);
+    expect(onScreen).toMatch(/judged by product settings v1 \(in force since .*\) and approved limits v1\./);
+    // the intervals say where σ came from: a baseline with its ν, or a configured σ taken as known
+    expect(onScreen).toMatch(/σ from the baseline with ν ≈ \d+ \(Patnaik\)/);
+    expect(onScreen).toMatch(/σ configured, taken as known: only the mean is uncertain/);
+    // the reference test's allowance at the advised target
+    expect(onScreen).toMatch(/allowance 0\.379·s = [\d.]+ g/);
     await page.screenshot({ path: `${ARTIFACTS}review.png`, fullPage: true });
     await page.emulateMedia({ media: 'print' });
     const pdf = await page.pdf({ format: 'A4', printBackground: false });
