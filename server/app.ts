@@ -25,6 +25,7 @@ import { LiveHub } from './live/hub.js';
 import { createLiveRepository } from './live/repository.js';
 import { livePlugin } from './live/routes.js';
 import { linesPlugin } from './lines/routes.js';
+import { createLineStopRepository } from './lines/stops-repository.js';
 import { createLineRepository } from './lines/repository.js';
 import { GroupCommitter } from './monitor/group-commit.js';
 import { DailyBackups } from './db/daily-backups.js';
@@ -81,6 +82,7 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
   if (options.onLive) listeners.push(options.onLive);
   const repos = {
     lines: createLineRepository(db),
+    stops: createLineStopRepository(db),
     products: createProductRepository(db),
     checks: createCheckRepository(db),
     alerts: createAlertRepository(db),

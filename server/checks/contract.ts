@@ -1,7 +1,7 @@
 import { z } from 'zod';
 import { alertSummarySchema, alertViewSchema, checkSignalViewSchema } from '../alerts/contract.js';
 import { productViewSchema } from '../products/contract.js';
-import { inference, instant, instantOrNull, lineStatus, meanChartLimits, sampleSummary, spreadChartLimits } from '../shared/contract.js';
+import { inference, instant, instantOrNull, lineStatus, meanChartLimits, sampleSummary, spreadChartLimits, lineStopSchema } from '../shared/contract.js';
 import { freeText, isoTime, rangeQuery } from '../shared/schemas.js';
 
 /** What the checks and status routes take and answer (API.md, "Check entry" and "Status"). */
@@ -105,6 +105,9 @@ export const statusViewSchema = z.strictObject({
     .nullable(),
   openAlerts: z.array(alertViewSchema),
   lastCheckAt: instantOrNull,
+  /** False while the line stands still: then no check falls due. */
+  running: z.boolean(),
+  stop: lineStopSchema.nullable(),
   nextCheckDue: instantOrNull,
   overdue: z.boolean(),
   falseAlarm: falseAlarmSchema.nullable(),

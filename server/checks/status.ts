@@ -1,3 +1,5 @@
+import type { LineStop } from '../lines/stops-repository.js';
+import type { LineStopView } from '../shared/contract.js';
 import type { HeftContext } from '../context.js';
 import { toIso } from '../clock.js';
 import { falseAlarmFigure } from '../monitor/false-alarm-cache.js';
@@ -5,6 +7,11 @@ import { alertViewFrom } from '../monitor/views.js';
 import { productView } from '../products/views.js';
 import { summarizeSample } from '../stats/sample-summary.js';
 import type { StatusView } from './contract.js';
+
+/** A stop as the API shows it. */
+export function stopView(stop: LineStop | null): LineStopView | null {
+  return stop ? { reason: stop.reason, note: stop.note, since: new Date(stop.stoppedAt).toISOString(), by: stop.stoppedBy } : null;
+}
 
 /** Where a line stands now, from the monitor's memory and the latest window of checks. */
 export function lineStatusView(ctx: HeftContext, lineId: number): StatusView {
@@ -33,6 +40,8 @@ export function lineStatusView(ctx: HeftContext, lineId: number): StatusView {
         : null,
       openAlerts: state.openAlerts.map((a) => alertViewFrom(repos.alerts, a)),
       lastCheckAt: toIso(state.lastCheckAt),
+      running: state.stop === null,
+      stop: stopView(state.stop),
       nextCheckDue: toIso(state.nextCheckDue),
       overdue: state.overdue,
       falseAlarm: product && state.limits ? falseAlarmFigure(set, product.subgroupSize, product.samplingMinutes) : null,

@@ -1,6 +1,7 @@
 import { z } from 'zod';
 import { productViewSchema } from '../products/contract.js';
-import { instantOrNull, lineStatus } from '../shared/contract.js';
+import { instantOrNull, lineStatus, lineStopSchema } from '../shared/contract.js';
+import { STOP_REASONS } from './stops-repository.js';
 import { code, freeText, idParam } from '../shared/schemas.js';
 
 /** What the lines routes take and answer. */
@@ -13,6 +14,10 @@ export const lineBody = z.strictObject({
 export const linePatch = lineBody.partial();
 export const lineParams = z.strictObject({ lineId: idParam });
 export const changeoverBody = z.strictObject({ productId: idParam });
+export const stopBody = z.strictObject({
+  reason: z.enum(STOP_REASONS, { error: `one of ${STOP_REASONS.join(', ')}` }),
+  note: freeText(200).optional(),
+});
 
 /** A line with the product it runs now, its run and how it stands. */
 export const lineViewSchema = z.strictObject({
@@ -24,6 +29,9 @@ export const lineViewSchema = z.strictObject({
   runId: z.number().nullable(),
   runStartedAt: instantOrNull,
   status: lineStatus,
+  /** False while the line stands still (a break, cleaning, …): no check falls due then. */
+  running: z.boolean(),
+  stop: lineStopSchema.nullable(),
 });
 export type LineView = z.output<typeof lineViewSchema>;
 

@@ -1,11 +1,12 @@
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
-import { ADMIN, BOARD_READ, requireActor, SUPERVISOR_UP } from '../auth/access.js';
+import { ADMIN, BOARD_READ, requireActor, SIGNED_IN, SUPERVISOR_UP } from '../auth/access.js';
+import { stopView } from '../checks/status.js';
 import { actorName } from '../auth/service.js';
 import type { HeftContext } from '../context.js';
 import { notFound } from '../errors.js';
 import { productView } from '../products/views.js';
-import { changeoverBody, lineAnswer, lineBody, lineListAnswer, lineParams, linePatch, type LineView } from './contract.js';
+import { changeoverBody, lineAnswer, lineBody, lineListAnswer, lineParams, linePatch, stopBody, type LineView } from './contract.js';
 import type { Line } from './repository.js';
 import { createLineService } from './service.js';
 
@@ -25,6 +26,8 @@ export const linesPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fast
       runId: state.run?.id ?? null,
       runStartedAt: state.run ? new Date(state.run.startedAt).toISOString() : null,
       status: state.product ? state.status : 'idle',
+      running: state.stop === null,
+      stop: stopView(state.stop),
     };
   };
 
@@ -55,4 +58,19 @@ export const linesPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fast
       return { line: lineView(repos.lines.get(req.params.lineId) as Line) };
     },
   );
+
+  // operators and supervisors stop their line for a break, cleaning and the like, and start it again
+  app.post('/api/lines/:lineId/stop', { config: { roles: SIGNED_IN }, schema: { params: lineParams, body: stopBody, response: { 200: lineAnswer } } }, async (req) => {
+    const line = repos.lines.get(req.params.lineId);
+    if (!line) throw notFound(`line ${req.params.lineId}`);
+    monitor.stopLine(line.id, req.body.reason, req.body.note ?? null, actorName(requireActor(req)));
+    return { line: lineView(line) };
+  });
+
+  app.post('/api/lines/:lineId/start', { config: { roles: SIGNED_IN }, schema: { params: lineParams, response: { 200: lineAnswer } } }, async (req) => {
+    const line = repos.lines.get(req.params.lineId);
+    if (!line) throw notFound(`line ${req.params.lineId}`);
+    monitor.startLine(line.id, actorName(requireActor(req)));
+    return { line: lineView(line) };
+  });
 };

@@ -1,3 +1,4 @@
+import type { LineStop, LineStopRepository } from '../lines/stops-repository.js';
 import type { AlertKind, StoredAlert } from '../alerts/repository.js';
 import type { CheckRepository } from '../checks/repository.js';
 import { notFound } from '../errors.js';
@@ -40,6 +41,10 @@ export interface LineRuntime {
   points: SegmentPoint[];
   window: WindowCheck[];
   lastTakenAt: number | null;
+  /** The stop in force while the line stands still; null while it runs. */
+  stop: LineStop | null;
+  /** When the line last started again after a stop: the sampling clock counts from there. */
+  resumedAt: number | null;
   /** Unresolved alerts of the current run, by kind and direction. */
   openAlerts: Map<string, StoredAlert>;
   /** The segment as it was before the latest check, so that check can be corrected; null after a reset. */
@@ -51,6 +56,7 @@ export const alertKey = (kind: AlertKind, direction: Direction | null) => `${kin
 
 export interface RuntimeRepositories {
   lines: LineRepository;
+  stops: LineStopRepository;
   products: ProductRepository;
   checks: CheckRepository;
   limits: LimitsRepository;
@@ -121,6 +127,8 @@ export class LineRuntimes {
       points: [],
       window: [],
       lastTakenAt: null,
+      stop: this.repos.stops.open(line.id),
+      resumedAt: this.repos.stops.lastStartedAt(line.id),
       openAlerts: new Map(),
       previous: null,
     };

@@ -1,3 +1,4 @@
+import type { LineStop, LineStopRepository, StopReason } from '../lines/stops-repository.js';
 import type { AlertRepository, StoredAlert } from '../alerts/repository.js';
 import type { AuditRepository } from '../audit/repository.js';
 import type { CheckRepository, StoredCheck } from '../checks/repository.js';
@@ -29,6 +30,7 @@ class BatchAborted extends Error {
 
 export interface Repositories {
   lines: LineRepository;
+  stops: LineStopRepository;
   products: ProductRepository;
   checks: CheckRepository;
   alerts: AlertRepository;
@@ -398,10 +400,51 @@ export class Monitor {
     return opened;
   }
 
+  /** When the next check falls due: one interval after the last check, the run's start or the line's restart, whichever is latest; never while stopped. */
   private nextDue(runtime: LineRuntime): number | null {
-    if (!runtime.run || !runtime.product) return null;
-    const from = Math.max(runtime.lastTakenAt ?? runtime.run.startedAt, runtime.run.startedAt);
+    if (!runtime.run || !runtime.product || runtime.stop) return null;
+    const from = Math.max(runtime.lastTakenAt ?? runtime.run.startedAt, runtime.run.startedAt, runtime.resumedAt ?? 0);
     return from + runtime.product.samplingMinutes * 60_000;
+  }
+
+  // ---------------------------------------------------------------- stopping and starting
+
+  /** The line stands still: no check falls due until it starts again, and an open "check overdue" closes. */
+  stopLine(lineId: number, reason: StopReason, note: string | null, actor: string): LineStop {
+    const runtime = this.lines.get(lineId);
+    if (runtime.stop) throw conflict(`line ${runtime.line.code} is already stopped (${runtime.stop.reason}) since ${new Date(runtime.stop.stoppedAt).toISOString()}`);
+    const now = this.clock.now();
+    const done = this.db.transaction(() => {
+      const stop = this.repos.stops.stop(lineId, reason, note, now, actor);
+      const closed = this.alerts.closeOverdue(new Map(runtime.openAlerts), 'line stopped', now);
+      this.repos.audit.record({ at: now, actor, action: 'line.stop', entity: 'line', entityId: lineId, after: { stopId: stop.id, reason, note } });
+      const messages = this.record(now, [
+        ...(closed ? [{ type: 'alert-updated' as const, lineId, alert: alertViewFrom(this.repos.alerts, closed) }] : []),
+        { type: 'line-status', lineId, reason: 'stopped' },
+      ]);
+      return { stop, closed, messages };
+    }).immediate();
+    runtime.stop = done.stop;
+    if (done.closed) runtime.openAlerts.delete(alertKey('check-overdue', null));
+    this.emit(done.messages, lineId);
+    return done.stop;
+  }
+
+  /** The line runs again: its first check is due one sampling interval from now. */
+  startLine(lineId: number, actor: string): LineStop {
+    const runtime = this.lines.get(lineId);
+    const open = runtime.stop;
+    if (!open) throw conflict(`line ${runtime.line.code} is running already`);
+    const now = this.clock.now();
+    const done = this.db.transaction(() => {
+      const ended = this.repos.stops.start(open.id, now, actor);
+      this.repos.audit.record({ at: now, actor, action: 'line.start', entity: 'line', entityId: lineId, before: { stopId: open.id, reason: open.reason }, after: null });
+      return { ended, messages: this.record(now, [{ type: 'line-status', lineId, reason: 'started' }]) };
+    }).immediate();
+    runtime.stop = null;
+    runtime.resumedAt = now;
+    this.emit(done.messages, lineId);
+    return done.ended;
   }
 
   // ---------------------------------------------------------------- reading
@@ -433,6 +476,7 @@ export class Monitor {
       segment: runtime.segment,
       openAlerts: open,
       lastCheckAt: runtime.lastTakenAt,
+      stop: runtime.stop,
       nextCheckDue: due,
       overdue: due !== null && this.clock.now() > due + this.graceMs,
     };

@@ -94,6 +94,12 @@ export const reviewEventSchema = alertViewSchema.extend({ minutesToAcknowledge: 
 
 export const lineSectionSchema = z.strictObject({
   line: z.strictObject({ id: z.number(), code: z.string(), name: z.string(), packsPerHour: z.number().nullable() }),
+  /** Hours making product (a product running and the line not stopped) against hours stopped, by reason. */
+  running: z.strictObject({
+    hoursRunning: z.number(),
+    hoursStopped: z.number(),
+    stopped: z.array(z.strictObject({ reason: z.enum(['break', 'cleaning', 'changeover', 'no-orders', 'breakdown', 'other']), stops: z.number(), hours: z.number() })),
+  }),
   sampling: z.strictObject({ checksTaken: z.number(), checksDue: z.number(), kept: z.boolean() }),
   events: z.array(reviewEventSchema),
   medianMinutesToAcknowledge: z.number().nullable(),

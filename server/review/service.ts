@@ -5,6 +5,7 @@ import type { Line } from '../lines/repository.js';
 import { falseAlarmFigure } from '../monitor/false-alarm-cache.js';
 import { alertViewFrom } from '../monitor/views.js';
 import type { LimitsVersion } from '../limits/repository.js';
+import type { StopReason } from '../lines/stops-repository.js';
 import type { Product, ProductVersion } from '../products/repository.js';
 import { capability, capabilityFromSources, sigmaDegreesOfFreedom, varianceOfMeanFromChecks, type SigmaUncertainty } from '../stats/capability.js';
 import { estimateSigma, defaultSigmaMethod } from '../stats/control-limits.js';
@@ -29,13 +30,37 @@ function median(values: number[]): number | null {
   return sorted.length % 2 ? (sorted[mid] as number) : ((sorted[mid - 1] as number) + (sorted[mid] as number)) / 2;
 }
 
-/** Minutes of [from, to) during which the line ran the product (its runs' overlap with the range). */
+const overlap = (a0: number, a1: number, b0: number, b1: number) => Math.max(0, Math.min(a1, b1) - Math.max(a0, b0));
+
+/** Minutes of [from, to) during which the line ran the product: its runs' overlap with the range, less the time it stood stopped. */
 function minutesRunning(ctx: HeftContext, lineId: number, productId: number | null, from: number, to: number): number {
   const now = ctx.clock.now();
-  return ctx.repos.lines
-    .runsInRange(lineId, from, to)
-    .filter((r) => productId === null || r.productId === productId)
-    .reduce((acc, r) => acc + Math.max(0, Math.min(to, r.endedAt ?? now, now) - Math.max(from, r.startedAt)) / MINUTE, 0);
+  const end = Math.min(to, now);
+  const stops = ctx.repos.stops.during(lineId, from, end);
+  let ms = 0;
+  for (const r of ctx.repos.lines.runsInRange(lineId, from, end)) {
+    if (productId !== null && r.productId !== productId) continue;
+    const r0 = Math.max(from, r.startedAt);
+    const r1 = Math.min(end, r.endedAt ?? now);
+    if (r1 <= r0) continue;
+    ms += r1 - r0;
+    for (const s of stops) ms -= overlap(r0, r1, s.stoppedAt, s.startedAt ?? now);
+  }
+  return Math.max(0, ms) / MINUTE;
+}
+
+/** Hours the line stood stopped in [from, to), by reason. */
+function stoppedByReason(ctx: HeftContext, lineId: number, from: number, to: number) {
+  const now = ctx.clock.now();
+  const end = Math.min(to, now);
+  const byReason = new Map<string, { reason: StopReason; stops: number; hours: number }>();
+  for (const s of ctx.repos.stops.during(lineId, from, end)) {
+    const entry = byReason.get(s.reason) ?? { reason: s.reason, stops: 0, hours: 0 };
+    entry.stops += 1;
+    entry.hours += overlap(from, end, s.stoppedAt, s.startedAt ?? now) / 3_600_000;
+    byReason.set(s.reason, entry);
+  }
+  return [...byReason.values()];
 }
 
 function unstableAt(alerts: StoredAlert[], to: number): StoredAlert[] {
@@ -221,8 +246,14 @@ export function createReviewService(ctx: HeftContext) {
       minutesToAcknowledge: a.acknowledgedAt === null ? null : (a.acknowledgedAt - a.openedAt) / MINUTE,
       minutesToResolve: a.resolvedAt === null ? null : (a.resolvedAt - a.openedAt) / MINUTE,
     }));
+    const stopped = stoppedByReason(ctx, line.id, from, to);
     return {
       line: { id: line.id, code: line.code, name: line.name, packsPerHour: line.packsPerHour },
+      running: {
+        hoursRunning: minutesRunning(ctx, line.id, null, from, to) / 60,
+        hoursStopped: stopped.reduce((acc, s) => acc + s.hours, 0),
+        stopped,
+      },
       sampling: { checksTaken: taken, checksDue: due, kept: taken >= due },
       events,
       medianMinutesToAcknowledge: median(events.flatMap((e) => (e.minutesToAcknowledge === null ? [] : [e.minutesToAcknowledge]))),

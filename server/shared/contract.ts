@@ -51,3 +51,12 @@ export const errorBody = z.object({
   message: z.string(),
   issues: z.array(z.strictObject({ field: z.string(), message: z.string() })).optional(),
 });
+
+/** Why and since when a line stands still, and who stopped it. */
+export const lineStopSchema = z.strictObject({
+  reason: z.enum(['break', 'cleaning', 'changeover', 'no-orders', 'breakdown', 'other']),
+  note: z.string().nullable(),
+  since: instant,
+  by: z.string(),
+});
+export type LineStopView = z.output<typeof lineStopSchema>;

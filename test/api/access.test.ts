@@ -34,6 +34,8 @@ const MATRIX: Record<string, { who: Principal[]; url: string; payload?: object; 
   'POST /api/lines': { who: ADMIN, url: '/api/lines', payload: {}, ok: 400 },
   'PATCH /api/lines/:lineId': { who: ADMIN, url: '/api/lines/1', payload: {}, ok: 200 },
   'PUT /api/lines/:lineId/product': { who: SUP, url: '/api/lines/1/product', payload: {}, ok: 400 },
+  'POST /api/lines/:lineId/stop': { who: PEOPLE, url: '/api/lines/1/stop', payload: {}, ok: 400 },
+  'POST /api/lines/:lineId/start': { who: PEOPLE, url: '/api/lines/1/start', ok: 409 },
   'GET /api/products': { who: BOARD, url: '/api/products', ok: 200 },
   'GET /api/products/:productId': { who: BOARD, url: '/api/products/1', ok: 200 },
   'GET /api/products/:productId/versions': { who: BOARD, url: '/api/products/1/versions', ok: 200 },

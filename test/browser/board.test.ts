@@ -166,4 +166,18 @@ describe.skipIf(!HAVE_CHROMIUM)('the wall board', () => {
     await wallPage.locator('#detail-close').click();
     await wallPage.locator('#tiles').waitFor();
   });
+
+  it('when a line is stopped, then its tile says why and since when, at once, instead of when its next check is due', async () => {
+    const supervisor = await app.inject({ method: 'POST', url: '/api/session', payload: { username: 'supervisor', secret: '2222' } });
+    const cookie = String(supervisor.headers['set-cookie']).split(';')[0] as string;
+    const res = await app.inject({ method: 'POST', url: '/api/lines/3/stop', headers: { cookie }, payload: { reason: 'cleaning' } });
+    expect(res.statusCode).toBe(200);
+    const tile = wallPage.locator('.tile[data-line="3"] [data-stopped]');
+    await tile.waitFor({ timeout: 2000 });
+    expect(await tile.innerText()).toMatch(/^stopped — cleaning, since \d\d:\d\d$/);
+    expect(await wallPage.locator('.tile[data-line="3"] [data-due]').count()).toBe(0);
+    await wallPage.screenshot({ path: `${ARTIFACTS}board-stopped.png` });
+    await app.inject({ method: 'POST', url: '/api/lines/3/start', headers: { cookie } });
+    await wallPage.locator('.tile[data-line="3"] [data-due]').waitFor({ timeout: 2000 });
+  });
 });

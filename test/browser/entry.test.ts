@@ -165,4 +165,23 @@ describe.skipIf(!HAVE_CHROMIUM)('the operator’s entry page', () => {
     expect(rows[1]?.revision_reason).toBe('530.5 was 503.5: fingers slipped');
     await page.close();
   });
+
+  it('when the operator stops the line for cleaning and starts it again, then the page and the server say so', async () => {
+    const page = await signedIn();
+    expect(await page.locator('#run-words').innerText()).toBe('Line running');
+    await page.getByRole('button', { name: 'Stop line' }).click();
+    await page.getByLabel('Why is the line stopping?').selectOption('cleaning');
+    await page.getByLabel('Note (optional)').fill('after the changeover');
+    await page.getByRole('button', { name: 'Stop the line' }).click();
+    await page.locator('#run-words[data-running="false"]').waitFor();
+    expect(await page.locator('#run-words').innerText()).toMatch(/^stopped — cleaning \(after the changeover\), since \d\d:\d\d$/);
+    const line = (await t.app.inject({ method: 'GET', url: `/api/lines/${lineId}`, headers: { cookie: t.cookies.supervisor } })).json().line;
+    expect([line.running, line.stop.reason, line.stop.by]).toEqual([false, 'cleaning', 'operator']);
+    await page.screenshot({ path: `${ARTIFACTS}entry-stopped.png` });
+    await page.getByRole('button', { name: 'Start line' }).click();
+    await page.locator('#run-words[data-running="true"]').waitFor();
+    const after = (await t.app.inject({ method: 'GET', url: `/api/lines/${lineId}`, headers: { cookie: t.cookies.supervisor } })).json().line;
+    expect(after.running).toBe(true);
+    await page.close();
+  });
 });

@@ -3,7 +3,7 @@ import './board.css';
 import type uPlot from 'uplot';
 import { api, ApiError, getPlant, signIn, signOut, whoAmI, type Alert, type AlertSummary, type Check, type Line, type Plant, type Status, type User } from '../shared/api.js';
 import { meanChart, meanChartData, spreadChart, type ChartPoint } from '../shared/charts.js';
-import { alertTitle, clock, dateTime, duration, el, overUnder, weight } from '../shared/format.js';
+import { alertTitle, clock, dateTime, duration, el, overUnder, STOP_REASON_WORDS, stopWords, weight } from '../shared/format.js';
 import { LiveClient, type LiveMessage } from '../shared/live.js';
 import { dueWords, shiftSizeWords as sizeWords, twoToneChime } from './words-and-sound.js';
 
@@ -135,8 +135,11 @@ function renderTile(v: LineView): HTMLElement {
   if (p && last) tile.append(el('div', { class: 'mean' }, `last mean ${weight(last.mean, p.unit)} · ${overUnder(last.mean - p.target, p.unit)} target`));
   const chartBox = el('div', { class: 'chart' });
   tile.append(chartBox);
+  const stop = v.status?.stop ?? null;
   const due = dueWords(v.status?.nextCheckDue);
-  tile.append(el('div', { class: `due${due.late ? ' late' : ''}`, 'data-due': '' }, due.text));
+  // a line that stands still says why and since when instead of when its next check is due
+  if (stop) tile.append(el('div', { class: 'due stopped', 'data-stopped': '' }, stopWords(stop, board.plant.timeZone)));
+  else tile.append(el('div', { class: `due${due.late ? ' late' : ''}`, 'data-due': '' }, due.text));
   const list = el('div', { class: 'alert-list' });
   for (const a of visibleAlerts(v).slice(0, 3)) list.append(alertItem(a, v, true));
   tile.append(list);
@@ -207,11 +210,41 @@ $('detail-close').addEventListener('click', () => {
   renderTiles();
 });
 
+/** Start or stop the line from the wall, for a person signed in: "stopped — cleaning, since 14:05" and "Start line", or a reason and "Stop line". */
+function renderRunControls(v: LineView): void {
+  const box = $('detail-run');
+  const stop = v.status?.stop ?? null;
+  const words = el('span', { 'data-running': String(!stop) }, stop ? stopWords(stop, board.plant.timeZone) : 'running');
+  if (!board.user) {
+    box.replaceChildren(words);
+    return;
+  }
+  const send = async (path: 'stop' | 'start', body?: Record<string, unknown>) => {
+    try {
+      await api('POST', `/api/lines/${v.line.id}/${path}`, body);
+      problem(null);
+    } catch (err) {
+      problem(err instanceof ApiError ? (err.body?.message ?? 'The line could not be changed') : 'The server cannot be reached.');
+    }
+  };
+  if (stop) {
+    const start = el('button', { type: 'button' }, 'Start line');
+    start.addEventListener('click', () => void send('start'));
+    box.replaceChildren(words, start);
+    return;
+  }
+  const reason = el('select', { id: 'board-stop-reason' }, ...Object.entries(STOP_REASON_WORDS).map(([value, text]) => el('option', { value }, text)));
+  const stopButton = el('button', { type: 'button' }, 'Stop line');
+  stopButton.addEventListener('click', () => void send('stop', { reason: reason.value }));
+  box.replaceChildren(words, el('label', { for: 'board-stop-reason' }, 'Reason'), reason, stopButton);
+}
+
 function renderDetail(): void {
   const v = board.lines.get(board.detailLine ?? -1);
   if (!v) return;
   const p = v.status?.product;
   $('detail-title').textContent = `${v.line.code} ${v.line.name}${p ? ` — ${p.name}` : ''} · ${lineState(v)}`;
+  renderRunControls(v);
   for (const c of detailCharts) c.destroy();
   detailCharts = [];
   const limits = v.status?.limits;
@@ -335,7 +368,7 @@ async function onMessage(m: LiveMessage): Promise<void> {
     const check = m.check;
     if (m.signals.length > 0) v.signalled.add(check.id);
     v.points = [...v.points.filter((p) => p.checkId !== check.id), toPoint(check)].slice(-MAX_POINTS * 4);
-    if (v.status) {
+    if (v.status && !v.status.stop) {
       v.status.lastCheckAt = check.takenAt;
       const minutes = v.status.product?.samplingMinutes ?? 60;
       v.status.nextCheckDue = new Date(Date.parse(check.takenAt) + minutes * 60_000).toISOString();

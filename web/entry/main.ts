@@ -1,7 +1,7 @@
 import '../shared/base.css';
 import './entry.css';
 import { api, ApiError, getPlant, NetworkError, signIn, signOut, whoAmI, type Check, type Line, type Plant, type CheckAnswer, type CheckSignal, type Product, type Status, type User } from '../shared/api.js';
-import { clock, decimalsFor, el, overUnder, parseDecimal, weight } from '../shared/format.js';
+import { clock, decimalsFor, el, overUnder, parseDecimal, stopWords, weight } from '../shared/format.js';
 import { enqueue, remove, waiting, type QueuedCheck } from './queue.js';
 
 const LINE_KEY = 'heft.entry.lineId';
@@ -107,6 +107,7 @@ async function openLine(): Promise<void> {
   }
   state.line = line;
   state.product = line.product;
+  showRunState(line);
   $('line-title').textContent = `${line.code} — ${line.name}`;
   $('product-title').textContent = line.product ? line.product.name : 'no product running';
   const latest = await api<{ checks: Check[] }>('GET', `/api/lines/${line.id}/checks?limit=1`).catch(() => ({ checks: [] as Check[] }));
@@ -116,6 +117,45 @@ async function openLine(): Promise<void> {
   show('entry');
   state.inputs[0]?.focus();
 }
+
+// ------------------------------------------------------------------ running or stopped
+
+/** Running, or "stopped — cleaning, since 14:05", with the button that changes it. */
+function showRunState(line: Line): void {
+  const words = $('run-words');
+  words.textContent = line.stop ? stopWords(line.stop, state.plant.timeZone) : 'Line running';
+  words.dataset.running = String(line.running);
+  $('stop-line').classList.toggle('hidden', !line.running);
+  $('start-line').classList.toggle('hidden', line.running);
+  $('stop-form').classList.add('hidden');
+}
+
+async function changeRunState(path: 'stop' | 'start', body?: Record<string, unknown>): Promise<void> {
+  const line = state.line;
+  if (!line) return;
+  problem(null);
+  try {
+    const answer = await api<{ line: Line }>('POST', `/api/lines/${line.id}/${path}`, body);
+    state.line = answer.line;
+    showRunState(answer.line);
+  } catch (err) {
+    problem(err instanceof ApiError ? (err.body?.message ?? 'The line could not be changed') : 'The server cannot be reached; try again in a moment.');
+  }
+}
+
+$('stop-line').addEventListener('click', () => {
+  $('stop-form').classList.remove('hidden');
+  $('stop-reason').focus();
+});
+$('stop-cancel').addEventListener('click', () => $('stop-form').classList.add('hidden'));
+$<HTMLFormElement>('stop-form').addEventListener('submit', (event) => {
+  event.preventDefault();
+  const note = $<HTMLInputElement>('stop-note').value.trim();
+  void changeRunState('stop', { reason: $<HTMLSelectElement>('stop-reason').value, ...(note ? { note } : {}) }).then(() => {
+    $<HTMLInputElement>('stop-note').value = '';
+  });
+});
+$('start-line').addEventListener('click', () => void changeRunState('start'));
 
 // ------------------------------------------------------------------ the form
 

@@ -2,7 +2,7 @@ import '../shared/base.css';
 import './review.css';
 import { api, ApiError, getPlant, signIn, whoAmI, type Line, type Plant } from '../shared/api.js';
 import { meanChart, meanChartData, type ChartPoint } from '../shared/charts.js';
-import { alertTitle, dateTime, el } from '../shared/format.js';
+import { alertTitle, dateTime, el, STOP_REASON_WORDS } from '../shared/format.js';
 import type { LineSection, ProductSection, Review } from '../../server/review/contract.js';
 
 const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as T;
@@ -170,6 +170,11 @@ function renderLine(s: LineSection): HTMLElement {
     el(
       'div',
       { class: 'facts' },
+      fact(
+        'Running and stopped',
+        `${s.running.hoursRunning.toFixed(1)} h running, ${s.running.hoursStopped.toFixed(1)} h stopped` +
+          (s.running.stopped.length ? ` (${s.running.stopped.map((x) => `${STOP_REASON_WORDS[x.reason] ?? x.reason} ${x.hours.toFixed(1)} h`).join(', ')})` : ''),
+      ),
       fact('Sampling plan', el('span', {}, `${s.sampling.checksTaken} checks taken of ${s.sampling.checksDue} due `, mark(s.sampling.kept))),
       fact('Median time to acknowledge', minutes(s.medianMinutesToAcknowledge)),
       fact('Median time to resolve', minutes(s.medianMinutesToResolve)),

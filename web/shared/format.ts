@@ -43,6 +43,21 @@ export function duration(ms: number): string {
   return `${Math.floor(h / 24)} d ${h % 24} h`;
 }
 
+/** The reasons a line may stand still, in the words the pages use. */
+export const STOP_REASON_WORDS: Record<string, string> = {
+  break: 'break',
+  cleaning: 'cleaning',
+  changeover: 'changeover',
+  'no-orders': 'no orders',
+  breakdown: 'breakdown',
+  other: 'other',
+};
+
+/** "stopped — cleaning, since 14:05" (with the note after it when there is one). */
+export function stopWords(stop: { reason: string; note: string | null; since: string }, timeZone: string): string {
+  return `stopped — ${STOP_REASON_WORDS[stop.reason] ?? stop.reason}${stop.note ? ` (${stop.note})` : ''}, since ${clock(stop.since, timeZone)}`;
+}
+
 const KIND_WORDS: Record<string, string> = {
   'mean-shift': 'Mean shift',
   'spread-up': 'Spread up',
