@@ -30,6 +30,10 @@ import { createLineRepository } from './lines/repository.js';
 import { GroupCommitter } from './monitor/group-commit.js';
 import { DailyBackups } from './db/daily-backups.js';
 import { pruneOnce } from './db/housekeeping.js';
+import { networkDeliverers, type Deliverers } from './escalations/delivery.js';
+import { createEscalationRepository } from './escalations/repository.js';
+import { escalationsPlugin } from './escalations/routes.js';
+import { createEscalationService } from './escalations/service.js';
 import type { LiveEvent } from './live/messages.js';
 import { Monitor } from './monitor/monitor.js';
 import { createMonitorStateRepository } from './monitor/state-repository.js';
@@ -48,6 +52,8 @@ export interface AppOptions {
   logger?: FastifyServerOptions['logger'];
   /** Where committed live messages go; the live hub plugs in here. */
   onLive?: (events: LiveEvent[]) => void;
+  /** How notifications leave (tests put in their own or point SMTP at a server of their own). */
+  deliverers?: Deliverers;
   /** Sweep for overdue checks on a timer (off in tests, which call monitor.sweepOverdue() by hand). */
   overdueTimer?: boolean;
   /** With config.backupDir: take the daily backup on a timer (off in tests, which call runIfDue by hand). */
@@ -91,6 +97,7 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
     audit: createAuditRepository(db),
     live: createLiveRepository(db),
     auth: createAuthRepository(db),
+    escalations: createEscalationRepository(db),
   };
   const monitor = new Monitor({
     db,
@@ -122,7 +129,17 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
     sessionIdleMs: config.sessionIdleMinutes * 60_000,
     sessionMaxMs: config.sessionMaxHours * 3_600_000,
   };
-  const ctx: HeftContext = { db, clock, config, repos, monitor, commits: new GroupCommitter(monitor), auth };
+  const escalations = createEscalationService({
+    db,
+    clock,
+    repos,
+    deliverers: options.deliverers ?? networkDeliverers({ smtpUrl: config.smtpUrl, mailFrom: config.mailFrom, timeoutMs: 5000 }),
+    publicUrl: config.publicUrl ?? `http://${config.host}:${config.port}`,
+    timeZone: config.timeZone,
+    maxInFlight: config.webhookMaxInFlight,
+    log: (message, err) => app.log.error({ err }, message),
+  });
+  const ctx: HeftContext = { db, clock, config, repos, monitor, commits: new GroupCommitter(monitor), auth, escalations };
   app.decorate('heft', ctx);
   const hub = new LiveHub({ live: repos.live, now: () => clock.now() });
   listeners.push((events) => hub.publish(events));
@@ -169,9 +186,34 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
   await app.register(auditPlugin, { ctx });
   await app.register(reviewPlugin, { ctx });
   await app.register(exportsPlugin, { ctx });
+  await app.register(escalationsPlugin, { ctx });
   await app.register(livePlugin, { ctx, hub });
   await app.register(webPlugin);
 
+  // escalation: decide (stored in the outbox) and send after the commit; at once when an alert opens or
+  // changes, and on the sweep's timer for delays, retries and what a restart left pending
+  let escalating = false;
+  const escalateSoon = () => {
+    if (escalating) return;
+    escalating = true;
+    setImmediate(() => {
+      try {
+        escalations.sweep();
+      } catch (err) {
+        app.log.error({ err }, 'escalation sweep failed');
+      }
+      escalations
+        .deliverDue()
+        .catch((err) => app.log.error({ err }, 'escalation delivery failed'))
+        .finally(() => (escalating = false));
+    });
+  };
+  if (options.overdueTimer) {
+    listeners.push((events) => {
+      if (events.some((e) => e.type === 'alert-opened' || e.type === 'alert-updated')) escalateSoon();
+    });
+    escalateSoon();
+  }
   if (options.overdueTimer) {
     let sweeps = 0;
     let pruning = false;
@@ -181,6 +223,7 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
       } catch (err) {
         app.log.error({ err }, 'overdue sweep failed');
       }
+      escalateSoon();
       // every ten minutes: live messages past the resume window and sessions no one can use any more
       sweeps += 1;
       if (sweeps % 40 === 0 && !pruning) {

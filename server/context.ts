@@ -3,6 +3,8 @@ import type { AuthRepository } from './auth/repository.js';
 import type { Clock } from './clock.js';
 import type { Config } from './config.js';
 import type { Db } from './db/database.js';
+import type { EscalationRepository } from './escalations/repository.js';
+import type { EscalationService } from './escalations/service.js';
 import type { GroupCommitter } from './monitor/group-commit.js';
 import type { Monitor, Repositories } from './monitor/monitor.js';
 
@@ -11,9 +13,11 @@ export interface HeftContext {
   db: Db;
   clock: Clock;
   config: Config;
-  repos: Repositories & { auth: AuthRepository };
+  repos: Repositories & { auth: AuthRepository; escalations: EscalationRepository };
   monitor: Monitor;
   /** Check entry goes through here: one commit for every check of an event-loop turn. */
   commits: GroupCommitter;
   auth: AuthService;
+  /** Who is told of an alert that stays open; tests call sweep() and deliverDue() by hand. */
+  escalations: EscalationService;
 }

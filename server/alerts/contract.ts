@@ -1,3 +1,4 @@
+import { notificationSchema } from '../escalations/contract.js';
 import { z } from 'zod';
 import { direction, instant, instantOrNull, severity, shiftSize } from '../shared/contract.js';
 import { freeText, idParam, isoTime } from '../shared/schemas.js';
@@ -81,4 +82,5 @@ export type AlertView = z.output<typeof alertViewSchema>;
 export const alertAnswer = z.strictObject({ alert: alertViewSchema });
 export const alertListAnswer = z.strictObject({ alerts: z.array(alertViewSchema) });
 /** One alert with a page of its signals; `nextBefore` asks for the page before it (null: no more). */
-export const alertPageAnswer = z.strictObject({ alert: alertViewSchema, nextBefore: z.number().nullable() });
+/** The alert in full with a page of its signals and who was told of it (escalation). */
+export const alertPageAnswer = z.strictObject({ alert: alertViewSchema, nextBefore: z.number().nullable(), notifications: z.array(notificationSchema) });

@@ -1,3 +1,4 @@
+import { notificationView } from '../escalations/views.js';
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { BOARD_READ, requireActor, SUPERVISOR_UP } from '../auth/access.js';
@@ -42,7 +43,7 @@ export const alertsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
       const page = repos.alerts.signalPage(alert.id, req.query.before ?? null, req.query.limit);
       const oldest = page[0];
       const more = oldest !== undefined && repos.alerts.signalPage(alert.id, oldest.id, 1).length > 0;
-      return { alert: alertView(alert, page), nextBefore: more ? (oldest?.id ?? null) : null };
+      return { alert: alertView(alert, page), nextBefore: more ? (oldest?.id ?? null) : null, notifications: ctx.escalations.notificationsOf(alert.id).map(notificationView) };
     },
   );
 
