@@ -23,6 +23,8 @@ export const signalPageQuery = z.strictObject({
 });
 export const acknowledgeBody = z.strictObject({ note: freeText(1000) });
 export const resolveBody = z.strictObject({ cause: freeText(1000), action: freeText(1000) });
+/** Shelving: for 1 minute to 8 hours, with the reason. */
+export const shelveBody = z.strictObject({ minutes: z.number().int().min(1).max(480), reason: freeText(500) });
 
 const ruleIds: [RuleId | 'check-overdue', ...(RuleId | 'check-overdue')[]] = ['check-overdue', ...RULE_CATALOGUE.map((r) => r.id)];
 export const ruleId = z.enum(ruleIds);
@@ -76,11 +78,12 @@ export const alertViewSchema = alertSummarySchema.extend({
   signals: z.array(signalViewSchema),
   acknowledged: z.strictObject({ by: z.string().nullable(), at: instant, note: z.string().nullable() }).nullable(),
   resolved: z.strictObject({ by: z.string().nullable(), at: instant, cause: z.string().nullable(), action: z.string().nullable() }).nullable(),
+  /** The latest shelving (null if never shelved): shelved now while `until` lies ahead. */
+  shelved: z.strictObject({ until: instant, by: z.string().nullable(), reason: z.string().nullable(), times: z.number() }).nullable(),
 });
 export type AlertView = z.output<typeof alertViewSchema>;
 
 export const alertAnswer = z.strictObject({ alert: alertViewSchema });
 export const alertListAnswer = z.strictObject({ alerts: z.array(alertViewSchema) });
-/** One alert with a page of its signals; `nextBefore` asks for the page before it (null: no more). */
-/** The alert in full with a page of its signals and who was told of it (escalation). */
+/** One alert with a page of its signals (`nextBefore` asks for the page before it; null: no more) and who was told of it. */
 export const alertPageAnswer = z.strictObject({ alert: alertViewSchema, nextBefore: z.number().nullable(), notifications: z.array(notificationSchema) });

@@ -47,6 +47,11 @@ export interface StoredAlert {
   action: string | null;
   /** How many signals the alert holds; written with the alert, never counted. */
   signalCount: number;
+  /** The latest shelving: until when, by whom, why; and how many times it was shelved. */
+  shelvedUntil: number | null;
+  shelvedBy: string | null;
+  shelveReason: string | null;
+  shelveCount: number;
 }
 
 interface AlertRow {
@@ -75,6 +80,10 @@ interface AlertRow {
   cause: string | null;
   action: string | null;
   signal_count: number;
+  shelved_until: number | null;
+  shelved_by: string | null;
+  shelve_reason: string | null;
+  shelve_count: number;
 }
 
 interface SignalRow {
@@ -115,6 +124,10 @@ const toAlert = (r: AlertRow): StoredAlert => ({
   cause: r.cause,
   action: r.action,
   signalCount: r.signal_count,
+  shelvedUntil: r.shelved_until ?? null,
+  shelvedBy: r.shelved_by ?? null,
+  shelveReason: r.shelve_reason ?? null,
+  shelveCount: r.shelve_count ?? 0,
 });
 
 const toSignal = (r: SignalRow): StoredSignal => ({
@@ -155,6 +168,10 @@ function alertParams(a: Omit<StoredAlert, 'id'>) {
     cause: a.cause,
     action: a.action,
     signalCount: a.signalCount,
+    shelvedUntil: a.shelvedUntil,
+    shelvedBy: a.shelvedBy,
+    shelveReason: a.shelveReason,
+    shelveCount: a.shelveCount,
   };
 }
 
@@ -170,17 +187,20 @@ export function createAlertRepository(db: Db) {
   const insert = db.prepare(
     `INSERT INTO alerts (line_id, run_id, kind, direction, severity, state, rules, opened_at, onset_at, onset_check_id,
        change_point_at, change_point_check_id, size_unit, size_sigma, latest_check_id, updated_at, acknowledged_by,
-       acknowledged_at, acknowledge_note, resolved_by, resolved_at, cause, action, signal_count)
+       acknowledged_at, acknowledge_note, resolved_by, resolved_at, cause, action, signal_count, shelved_until, shelved_by,
+       shelve_reason, shelve_count)
      VALUES (@lineId, @runId, @kind, @direction, @severity, @state, @rules, @openedAt, @onsetAt, @onsetCheckId,
        @changePointAt, @changePointCheckId, @sizeUnit, @sizeSigma, @latestCheckId, @updatedAt, @acknowledgedBy,
-       @acknowledgedAt, @acknowledgeNote, @resolvedBy, @resolvedAt, @cause, @action, @signalCount)`,
+       @acknowledgedAt, @acknowledgeNote, @resolvedBy, @resolvedAt, @cause, @action, @signalCount, @shelvedUntil, @shelvedBy,
+       @shelveReason, @shelveCount)`,
   );
   const update = db.prepare(
     `UPDATE alerts SET severity = @severity, state = @state, rules = @rules, onset_at = @onsetAt,
        onset_check_id = @onsetCheckId, change_point_at = @changePointAt, change_point_check_id = @changePointCheckId,
        size_unit = @sizeUnit, size_sigma = @sizeSigma, latest_check_id = @latestCheckId, updated_at = @updatedAt,
        acknowledged_by = @acknowledgedBy, acknowledged_at = @acknowledgedAt, acknowledge_note = @acknowledgeNote,
-       resolved_by = @resolvedBy, resolved_at = @resolvedAt, cause = @cause, action = @action, signal_count = @signalCount
+       resolved_by = @resolvedBy, resolved_at = @resolvedAt, cause = @cause, action = @action, signal_count = @signalCount,
+       shelved_until = @shelvedUntil, shelved_by = @shelvedBy, shelve_reason = @shelveReason, shelve_count = @shelveCount
      WHERE id = @id`,
   );
   const byId = db.prepare('SELECT * FROM alerts WHERE id = ?');

@@ -6,7 +6,8 @@ import { actorName } from '../auth/service.js';
 import type { HeftContext } from '../context.js';
 import { notFound } from '../errors.js';
 import { alertView, alertViewFrom } from '../monitor/views.js';
-import { acknowledgeBody, alertAnswer, alertListAnswer, alertListQuery, alertPageAnswer, alertParams, resolveBody, signalPageQuery } from './contract.js';
+import { acknowledgeBody, alertAnswer, alertListAnswer, alertListQuery, alertPageAnswer, alertParams, resolveBody,
+  shelveBody, signalPageQuery } from './contract.js';
 
 export const alertsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fastify, { ctx }) => {
   const app = fastify.withTypeProvider<ZodTypeProvider>();
@@ -51,6 +52,12 @@ export const alertsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
     '/api/alerts/:id/acknowledge',
     { config: { roles: SUPERVISOR_UP }, schema: { params: alertParams, body: acknowledgeBody, response: { 200: alertAnswer } } },
     async (req) => ({ alert: monitor.acknowledge(req.params.id, req.body.note, actorName(requireActor(req))) }),
+  );
+
+  app.post(
+    '/api/alerts/:id/shelve',
+    { config: { roles: SUPERVISOR_UP }, schema: { params: alertParams, body: shelveBody, response: { 200: alertAnswer } } },
+    async (req) => ({ alert: monitor.shelve(req.params.id, req.body.minutes, req.body.reason, actorName(requireActor(req))) }),
   );
 
   app.post(

@@ -106,18 +106,27 @@ const toNotification = (r: NotificationRow): Notification => ({
 export type RuleFields = Pick<EscalationRule, 'name' | 'channel' | 'target' | 'severity' | 'afterMinutes' | 'lineIds'>;
 
 /** Alerts whose time has come under a rule: still open (not acknowledged), of its severity or higher, on its lines, and not yet told by it. */
+/**
+ * Alerts whose time has come under a rule: still open (not acknowledged) and not on the shelf, of the
+ * rule's severity or higher, on its lines, and not yet told by it in this round. An alert back from the
+ * shelf starts a new round whose delays count from its return.
+ */
 const DUE_SQL = `
-  SELECT a.id AS alertId, r.id AS ruleId FROM alerts a JOIN escalation_rules r ON r.enabled = 1
-  WHERE a.state = 'open' AND a.opened_at + r.after_minutes * 60000 <= @now
-    AND a.opened_at + r.after_minutes * 60000 >= r.created_at
-    AND (r.severity = 'watch' OR a.severity = 'act')
-    AND (r.line_ids IS NULL OR a.line_id IN (SELECT value FROM json_each(r.line_ids)))
-    AND NOT EXISTS (SELECT 1 FROM notifications n WHERE n.alert_id = a.id AND n.rule_id = r.id AND n.event_type IN ('alert.opened', 'alert.escalated'))
-  ORDER BY a.id, r.after_minutes, r.id`;
+  SELECT alertId, ruleId, round FROM (
+    SELECT a.id AS alertId, r.id AS ruleId, r.after_minutes AS afterMinutes, a.shelve_count AS round,
+      CASE WHEN a.shelved_until IS NULL THEN a.opened_at ELSE a.shelved_until END AS since, r.created_at AS ruleMade
+    FROM alerts a JOIN escalation_rules r ON r.enabled = 1
+    WHERE a.state = 'open' AND (a.shelved_until IS NULL OR a.shelved_until <= @now)
+      AND (r.severity = 'watch' OR a.severity = 'act')
+      AND (r.line_ids IS NULL OR a.line_id IN (SELECT value FROM json_each(r.line_ids)))
+      AND NOT EXISTS (SELECT 1 FROM notifications n WHERE n.alert_id = a.id AND n.rule_id = r.id AND n.round = a.shelve_count
+        AND n.event_type IN ('alert.opened', 'alert.escalated'))
+  ) WHERE since + afterMinutes * 60000 <= @now AND since + afterMinutes * 60000 >= ruleMade
+  ORDER BY alertId, afterMinutes, ruleId`;
 
 /** Webhooks that told of an alert which has since been acknowledged or resolved, and not yet of that. */
 const FOLLOW_UP_SQL = `
-  SELECT DISTINCT a.id AS alertId, r.id AS ruleId, CASE WHEN a.state = 'resolved' THEN 'alert.resolved' ELSE 'alert.acknowledged' END AS eventType
+  SELECT DISTINCT a.id AS alertId, r.id AS ruleId, a.shelve_count AS round, CASE WHEN a.state = 'resolved' THEN 'alert.resolved' ELSE 'alert.acknowledged' END AS eventType
   FROM notifications n JOIN alerts a ON a.id = n.alert_id JOIN escalation_rules r ON r.id = n.rule_id AND r.enabled = 1 AND r.channel = 'webhook'
   WHERE n.event_type IN ('alert.opened', 'alert.escalated') AND a.state IN ('acknowledged', 'resolved')
     AND NOT EXISTS (SELECT 1 FROM notifications m WHERE m.alert_id = a.id AND m.rule_id = r.id
@@ -139,8 +148,8 @@ export function createEscalationRepository(db: Db) {
   const due = db.prepare(DUE_SQL);
   const followUps = db.prepare(FOLLOW_UP_SQL);
   const insertNotification = db.prepare(
-    `INSERT OR IGNORE INTO notifications (alert_id, rule_id, rule_name, channel, target, event_type, message_id, body, created_at, next_attempt_at)
-     VALUES (@alertId, @ruleId, @ruleName, @channel, @target, @eventType, @messageId, @body, @at, @at)`,
+    `INSERT OR IGNORE INTO notifications (alert_id, rule_id, rule_name, channel, target, event_type, round, message_id, body, created_at, next_attempt_at)
+     VALUES (@alertId, @ruleId, @ruleName, @channel, @target, @eventType, @round, @messageId, @body, @at, @at)`,
   );
   const pending = db.prepare("SELECT * FROM notifications WHERE status = 'pending' AND next_attempt_at <= ? ORDER BY id LIMIT ?");
   const settle = db.prepare(
@@ -170,13 +179,13 @@ export function createEscalationRepository(db: Db) {
     disableRule(id: number, reason: string, at: number): void {
       disable.run({ id, reason, at });
     },
-    due(now: number): { alertId: number; ruleId: number }[] {
-      return due.all({ now }) as { alertId: number; ruleId: number }[];
+    due(now: number): { alertId: number; ruleId: number; round: number }[] {
+      return due.all({ now }) as { alertId: number; ruleId: number; round: number }[];
     },
-    followUps(): { alertId: number; ruleId: number; eventType: EventType }[] {
-      return followUps.all() as { alertId: number; ruleId: number; eventType: EventType }[];
+    followUps(): { alertId: number; ruleId: number; round: number; eventType: EventType }[] {
+      return followUps.all() as { alertId: number; ruleId: number; round: number; eventType: EventType }[];
     },
-    enqueue(n: { alertId: number; ruleId: number; ruleName: string; channel: Channel; target: string; eventType: EventType; messageId: string; body: string }, at: number): boolean {
+    enqueue(n: { alertId: number; ruleId: number; ruleName: string; channel: Channel; target: string; eventType: EventType; round: number; messageId: string; body: string }, at: number): boolean {
       return insertNotification.run({ ...n, at }).changes === 1;
     },
     pending(now: number, limit: number): Notification[] {

@@ -165,17 +165,17 @@ export function createEscalationService(o: EscalationOptions) {
       const now = clock.now();
       return db.transaction(() => {
         let stored = 0;
-        const store = (alertId: number, ruleId: number, type: EventType) => {
+        const store = (alertId: number, ruleId: number, round: number, type: EventType) => {
           const alert = repos.alerts.get(alertId);
           const rule = esc.getRule(ruleId);
           const line = alert ? repos.lines.get(alert.lineId) : null;
           if (!alert || !rule || !line) return;
           const eventType = type === 'alert.opened' && rule.afterMinutes > 0 ? 'alert.escalated' : type;
           const body = event(eventType, alert, line, now);
-          if (esc.enqueue({ alertId, ruleId, ruleName: rule.name, channel: rule.channel, target: rule.target, eventType, messageId: `msg_${randomUUID()}`, body }, now)) stored += 1;
+          if (esc.enqueue({ alertId, ruleId, ruleName: rule.name, channel: rule.channel, target: rule.target, eventType, round, messageId: `msg_${randomUUID()}`, body }, now)) stored += 1;
         };
-        for (const d of esc.due(now)) store(d.alertId, d.ruleId, 'alert.opened');
-        for (const f of esc.followUps()) store(f.alertId, f.ruleId, f.eventType);
+        for (const d of esc.due(now)) store(d.alertId, d.ruleId, d.round, d.round > 0 ? 'alert.escalated' : 'alert.opened');
+        for (const f of esc.followUps()) store(f.alertId, f.ruleId, f.round, f.eventType);
         return stored;
       }).immediate();
     },

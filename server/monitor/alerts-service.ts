@@ -26,6 +26,10 @@ function freshAlert(fields: Pick<StoredAlert, 'lineId' | 'runId' | 'kind' | 'dir
     cause: null,
     action: null,
     signalCount: 0,
+    shelvedUntil: null,
+    shelvedBy: null,
+    shelveReason: null,
+    shelveCount: 0,
     ...fields,
   };
 }
@@ -132,6 +136,18 @@ export class AlertsService {
     });
   }
 
+  /** Shelves an open alert until `until` with a reason: listed still, escalated no further until it comes back. */
+  shelve(alertId: number, until: number, reason: string, actor: string, now: number): StoredAlert {
+    const before = this.alerts.get(alertId);
+    if (!before) throw notFound(`alert ${alertId}`);
+    if (before.state !== 'open') throw conflict(`alert ${alertId} is ${before.state}; only an open alert can be shelved`);
+    if (before.shelvedUntil !== null && before.shelvedUntil > now) throw conflict(`alert ${alertId} is shelved already until ${new Date(before.shelvedUntil).toISOString()}`);
+    const updated: StoredAlert = { ...before, shelvedUntil: until, shelvedBy: actor, shelveReason: reason, shelveCount: before.shelveCount + 1, updatedAt: now };
+    this.alerts.update(updated);
+    this.audit.record({ at: now, actor, action: 'alert.shelve', entity: 'alert', entityId: alertId, before: { state: before.state }, after: { until: new Date(until).toISOString(), reason } });
+    return updated;
+  }
+
   resolve(alertId: number, cause: string, action: string, actor: string, now: number): { before: StoredAlert; updated: StoredAlert } {
     return this.transition(alertId, actor, now, (alert) => {
       if (alert.state === 'resolved') throw conflict(`alert ${alertId} is already resolved`);
@@ -179,6 +195,8 @@ function joined(
     latestCheckId: checkId,
     updatedAt: now,
     signalCount: alert.signalCount + 1,
+    // a new act-level signal takes a shelved alert off the shelf: it escalates again
+    shelvedUntil: p.severity === 'act' && alert.shelvedUntil !== null && alert.shelvedUntil > now ? now : alert.shelvedUntil,
   };
 }
 

@@ -336,6 +336,12 @@ export class Monitor {
     return this.afterTransition(this.db.transaction(() => this.withMessage(this.alerts.acknowledge(alertId, note, actor, now).updated, now)).immediate());
   }
 
+  /** Shelves an open alert for `minutes` (at most 8 h) with a reason. */
+  shelve(alertId: number, minutes: number, reason: string, actor: string): AlertView {
+    const now = this.clock.now();
+    return this.afterTransition(this.db.transaction(() => this.withMessage(this.alerts.shelve(alertId, now + minutes * 60_000, reason, actor, now), now)).immediate());
+  }
+
   resolve(alertId: number, cause: string, action: string, actor: string): AlertView {
     const now = this.clock.now();
     return this.afterTransition(

@@ -127,6 +127,7 @@ export function alertView(a: StoredAlert, signals: readonly StoredSignal[]): Ale
     signals: signals.map(signalView),
     acknowledged: a.acknowledgedAt === null ? null : { by: a.acknowledgedBy, at: toIso(a.acknowledgedAt), note: a.acknowledgeNote },
     resolved: a.resolvedAt === null ? null : { by: a.resolvedBy, at: toIso(a.resolvedAt), cause: a.cause, action: a.action },
+    shelved: a.shelvedUntil === null ? null : { until: toIso(a.shelvedUntil), by: a.shelvedBy, reason: a.shelveReason, times: a.shelveCount },
   };
 }
 

@@ -53,6 +53,7 @@ const MATRIX: Record<string, { who: Principal[]; url: string; payload?: object; 
   'GET /api/alerts/:id': { who: BOARD, url: '/api/alerts/1', ok: 200 },
   'POST /api/alerts/:id/acknowledge': { who: SUP, url: '/api/alerts/1/acknowledge', payload: {}, ok: 400 },
   'POST /api/alerts/:id/resolve': { who: SUP, url: '/api/alerts/1/resolve', payload: {}, ok: 400 },
+  'POST /api/alerts/:id/shelve': { who: SUP, url: '/api/alerts/1/shelve', payload: {}, ok: 400 },
   'GET /api/lines/:lineId/limits': { who: BOARD, url: '/api/lines/1/limits', ok: 200 },
   'POST /api/lines/:lineId/limits/proposal': { who: QUAL, url: '/api/lines/1/limits/proposal', payload: {}, ok: 400 },
   'POST /api/lines/:lineId/limits': { who: QUAL, url: '/api/lines/1/limits', payload: {}, ok: 400 },

@@ -206,4 +206,49 @@ describe('escalation', () => {
     await again.app.heft.escalations.deliverDue();
     expect(hook.received.map((r) => r.headers['webhook-id'])).toEqual([stored.id]);
   });
+
+  heftTest('when an open alert is shelved, then it escalates no further, and comes back and escalates again when the time runs out', async ({ heft: t }) => {
+    const hook = await webhookReceiver();
+    cleanups.push(hook.close);
+    const { lineId } = await setupLine(t);
+    await rule(t, { name: 'supervisor after 20 min', channel: 'webhook', to: hook.url, severity: 'act', afterMinutes: 20 });
+    const alertId = await actAlert(t, lineId);
+    const tooLong = await t.app.inject({ method: 'POST', url: `/api/alerts/${alertId}/shelve`, headers: { cookie: t.cookies.supervisor }, payload: { minutes: 481, reason: 'x' } });
+    expect(tooLong.json().issues[0].field).toBe('minutes');
+    const shelved = await t.app.inject({ method: 'POST', url: `/api/alerts/${alertId}/shelve`, headers: { cookie: t.cookies.supervisor }, payload: { minutes: 120, reason: 'filler head 3 under repair, known' } });
+    expect(shelved.statusCode).toBe(200);
+    expect(shelved.json().alert).toMatchObject({ state: 'open', shelved: { by: 'supervisor', reason: 'filler head 3 under repair, known', times: 1 } });
+    // still listed among the open alerts
+    const open = (await t.app.inject({ method: 'GET', url: `/api/alerts?state=open&lineId=${lineId}`, headers: { cookie: t.cookies.supervisor } })).json().alerts;
+    expect(open.map((a: { id: number }) => a.id)).toContain(alertId);
+    for (let i = 0; i < 6; i += 1) {
+      t.clock.advance(20 * MINUTE); // 120 min on the shelf
+      expect(t.app.heft.escalations.sweep()).toBe(0);
+    }
+    t.clock.advance(20 * MINUTE); // back 20 min ago: the rule's delay counts from the return
+    expect(t.app.heft.escalations.sweep()).toBe(1);
+    await t.app.heft.escalations.deliverDue();
+    expect(hook.received.map((r) => JSON.parse(r.body).type)).toEqual(['alert.escalated']);
+    expect(t.app.heft.repos.audit.list({ entity: 'alert', limit: 5 }).map((a) => a.action)).toContain('alert.shelve');
+  });
+
+  heftTest('when a new act-level signal joins a shelved alert, then it comes off the shelf at once; an acknowledged alert cannot be shelved', async ({ heft: t }) => {
+    const { lineId } = await setupLine(t);
+    await rule(t, { name: 'supervisor', channel: 'email', to: 'sup@plant.example', severity: 'act', afterMinutes: 0 });
+    const alertId = await actAlert(t, lineId);
+    t.app.heft.escalations.sweep(); // told once (round 0)
+    await t.app.inject({ method: 'POST', url: `/api/alerts/${alertId}/shelve`, headers: { cookie: t.cookies.supervisor }, payload: { minutes: 240, reason: 'known, under repair' } });
+    t.clock.advance(30 * MINUTE);
+    expect(t.app.heft.escalations.sweep()).toBe(0);
+    t.clock.advance(30 * MINUTE);
+    await postCheck(t, lineId, weightsWithMean(516)); // beyond the limits again: act
+    const now = t.clock.now();
+    expect(t.app.heft.repos.alerts.get(alertId)?.shelvedUntil).toBe(now);
+    expect(t.app.heft.escalations.sweep()).toBe(1);
+    const told = t.app.heft.escalations.notificationsOf(alertId).map((n) => n.eventType);
+    expect(told).toEqual(['alert.opened', 'alert.escalated']);
+    await t.app.inject({ method: 'POST', url: `/api/alerts/${alertId}/acknowledge`, headers: { cookie: t.cookies.supervisor }, payload: { note: 'on it' } });
+    const refused = await t.app.inject({ method: 'POST', url: `/api/alerts/${alertId}/shelve`, headers: { cookie: t.cookies.supervisor }, payload: { minutes: 60, reason: 'x' } });
+    expect(refused.statusCode).toBe(409);
+  });
 });

@@ -101,6 +101,9 @@ function alertItem(a: Alert, v: LineView, withButtons: boolean): HTMLElement {
   );
   if (a.kind !== 'check-overdue' && a.onset.at) item.append(el('div', { class: 'muted' }, `began about ${dateTime(a.changePoint?.at ?? a.onset.at, board.plant.timeZone)}`));
   if (a.acknowledged?.note) item.append(el('div', { class: 'muted' }, `note: ${a.acknowledged.note}`));
+  if (a.shelved && a.state === 'open' && Date.parse(a.shelved.until) > Date.now()) {
+    item.append(el('div', { class: 'muted', 'data-shelved': '' }, `shelved until ${clock(a.shelved.until, board.plant.timeZone)} by ${a.shelved.by ?? '—'}: ${a.shelved.reason ?? ''}`));
+  }
   if (a.resolved) item.append(el('div', { class: 'muted' }, `cause: ${a.resolved.cause} · action: ${a.resolved.action}`));
   if (withButtons && a.state !== 'resolved') {
     const buttons = el('div', { class: 'buttons' });
@@ -351,7 +354,7 @@ $('signout').addEventListener('click', async () => {
 function applyAlert(alert: Alert | AlertSummary): void {
   const v = board.lines.get(alert.lineId);
   if (!v) return;
-  v.alerts.set(alert.id, { signals: [], acknowledged: null, resolved: null, ...v.alerts.get(alert.id), ...alert });
+  v.alerts.set(alert.id, { signals: [], acknowledged: null, resolved: null, shelved: null, ...v.alerts.get(alert.id), ...alert });
   if (v.status) v.status.openAlerts = [...v.alerts.values()].filter((a) => a.state !== 'resolved');
   refreshTile(v);
 }

@@ -189,7 +189,7 @@ function renderLine(s: LineSection): HTMLElement {
       table(
         ['Event', 'Rules', 'Estimated start', 'Detected', 'Acknowledged', 'Resolved', 'Size', 'Cause', 'Action', 'Who'],
         s.events.map((e) => [
-          `${e.severity === 'act' ? '■' : '▲'} ${alertTitle(e.kind, e.direction)}`,
+          `${e.severity === 'act' ? '■' : '▲'} ${alertTitle(e.kind, e.direction)}${e.shelved ? ` (shelved ${e.shelved.times}× by ${e.shelved.by ?? '—'}: ${e.shelved.reason ?? ''})` : ''}`,
           e.ruleWords.join(', '),
           e.changePoint?.at ? dateTime(e.changePoint.at, plant.timeZone) : e.onset.at ? dateTime(e.onset.at, plant.timeZone) : '—',
           dateTime(e.openedAt, plant.timeZone),
