@@ -27,8 +27,11 @@ interface PendingAction {
   at: number;
   alertId: number;
   /** 'fix' is the line's own repair: the incident's effect on the process ends then. */
-  kind: 'acknowledge' | 'resolve' | 'fix';
+  kind: 'acknowledge' | 'resolve' | 'fix' | 'shelve' | 'start-line';
   who: string;
+  /** For 'start-line': the line stopped for cleaning. */
+  lineId?: number;
+  minutes?: number;
   incident?: string;
   note?: string;
   cause?: string;
@@ -104,6 +107,7 @@ export async function generateDemo(options: GenerateOptions): Promise<GenerateSu
   const pending: PendingAction[] = [];
   let checks = 0;
   const alertsSeen = new Set<number>();
+  let shelvedOne = false;
 
   const incidentOf = (lineCode: string, hour: number): keyof typeof INCIDENTS | null => {
     const { stepShift, drift, spreadAfterChangeover, packBelowT2 } = INCIDENTS;
@@ -123,6 +127,14 @@ export async function generateDemo(options: GenerateOptions): Promise<GenerateSu
     const incident = incidentOf(lineCode, hour);
     const ackAt = at + (10 + Math.floor(uniform() * 30)) * 60_000;
     if (ackAt > endAt - 2 * HOUR) return; // the latest alerts stay open for the board
+    // once, a supervisor shelves a watch-level alert of no incident for two hours, with the reason, before seeing to it
+    if (!shelvedOne && incident === null && alert.severity === 'watch' && ackAt + 3 * HOUR < endAt - 2 * HOUR) {
+      shelvedOne = true;
+      pending.push({ at: at + 5 * 60_000, alertId: alert.id, kind: 'shelve', who, minutes: 120, note: 'known: film reel being changed on this line; looking after it' });
+      pending.push({ at: at + 130 * 60_000, alertId: alert.id, kind: 'acknowledge', who, note: 'back from the shelf; looking now' });
+      pending.push({ at: at + 190 * 60_000, alertId: alert.id, kind: 'resolve', who, cause: 'no assignable cause found', action: 'none; watched the next checks' });
+      return;
+    }
     pending.push({ at: ackAt, alertId: alert.id, kind: 'acknowledge', who, note: 'seen; going to the line to look' });
     if (incident === 'stepShift' || incident === 'drift' || incident === 'spreadAfterChangeover') {
       const spec = INCIDENTS[incident];
@@ -147,8 +159,13 @@ export async function generateDemo(options: GenerateOptions): Promise<GenerateSu
         fixedAt.set(p.incident as string, p.at);
         continue;
       }
+      if (p.kind === 'start-line') {
+        monitor.startLine(p.lineId as number, p.who);
+        continue;
+      }
       const alert = app.heft.repos.alerts.get(p.alertId);
       if (!alert || alert.state === 'resolved') continue;
+      if (p.kind === 'shelve' && alert.state === 'open') monitor.shelve(p.alertId, p.minutes as number, p.note as string, p.who);
       if (p.kind === 'acknowledge' && alert.state === 'open') monitor.acknowledge(p.alertId, p.note as string, p.who);
       if (p.kind === 'resolve') monitor.resolve(p.alertId, p.cause as string, p.action as string, p.who);
     }
@@ -166,6 +183,10 @@ export async function generateDemo(options: GenerateOptions): Promise<GenerateSu
       if (l.code === spread.line && hour === spread.atHour && running.get(l.code) !== spread.product) {
         monitor.changeover(lineId, productIds.get(spread.product) as number, supervisorFor(at));
         running.set(l.code, spread.product);
+        // the line is cleaned after the changeover: stopped for 40 minutes, so this hour's check is not taken
+        monitor.stopLine(lineId, 'cleaning', 'after the changeover to brown rice', supervisorFor(at));
+        pending.push({ at: at + 40 * 60_000, alertId: 0, kind: 'start-line', who: supervisorFor(at), lineId });
+        continue;
       }
       if (l.code === INCIDENTS.missedCheck.line && INCIDENTS.missedCheck.hours.includes(hour)) continue;
       if (hour === 48 && l.code === 'L1') {
@@ -203,6 +224,13 @@ export async function generateDemo(options: GenerateOptions): Promise<GenerateSu
     }
   }
   runPending(endAt);
+  // one escalation rule to a webhook nobody listens on, in force from the start of the history, so the
+  // alerts still open at the end are told at once when the demo starts and their retries show
+  clock.set(startAt);
+  app.heft.escalations.createRule(
+    { name: 'night supervisor (demo webhook, nothing listens)', channel: 'webhook', target: 'http://127.0.0.1:9/heft-demo', severity: 'watch', afterMinutes: 0, lineIds: null },
+    'quality',
+  );
   clock.set(endAt);
   await app.close();
   return { checks, alerts: alertsSeen.size, startAt, endAt };

@@ -30,6 +30,9 @@ import { createLineRepository } from './lines/repository.js';
 import { GroupCommitter } from './monitor/group-commit.js';
 import { DailyBackups } from './db/daily-backups.js';
 import { pruneOnce } from './db/housekeeping.js';
+import { createCalendarRepository } from './calendar/repository.js';
+import { calendarPlugin } from './calendar/routes.js';
+import { createCalendarService } from './calendar/service.js';
 import { networkDeliverers, type Deliverers } from './escalations/delivery.js';
 import { createEscalationRepository } from './escalations/repository.js';
 import { escalationsPlugin } from './escalations/routes.js';
@@ -139,7 +142,8 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
     maxInFlight: config.webhookMaxInFlight,
     log: (message, err) => app.log.error({ err }, message),
   });
-  const ctx: HeftContext = { db, clock, config, repos, monitor, commits: new GroupCommitter(monitor), auth, escalations };
+  const calendar = createCalendarService({ db, clock, config, repos, monitor, calendarRepo: createCalendarRepository(db) });
+  const ctx: HeftContext = { db, clock, config, repos, monitor, commits: new GroupCommitter(monitor), auth, escalations, calendar };
   app.decorate('heft', ctx);
   const hub = new LiveHub({ live: repos.live, now: () => clock.now() });
   listeners.push((events) => hub.publish(events));
@@ -187,6 +191,7 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
   await app.register(reviewPlugin, { ctx });
   await app.register(exportsPlugin, { ctx });
   await app.register(escalationsPlugin, { ctx });
+  await app.register(calendarPlugin, { ctx });
   await app.register(livePlugin, { ctx, hub });
   await app.register(webPlugin);
 
@@ -218,6 +223,11 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
     let sweeps = 0;
     let pruning = false;
     const timer = setInterval(() => {
+      try {
+        calendar.sweep();
+      } catch (err) {
+        app.log.error({ err }, 'calendar sweep failed');
+      }
       try {
         monitor.sweepOverdue();
       } catch (err) {

@@ -1,5 +1,6 @@
 import type { AuthService } from './auth/service.js';
 import type { AuthRepository } from './auth/repository.js';
+import type { CalendarService } from './calendar/service.js';
 import type { Clock } from './clock.js';
 import type { Config } from './config.js';
 import type { Db } from './db/database.js';
@@ -20,4 +21,6 @@ export interface HeftContext {
   auth: AuthService;
   /** Who is told of an alert that stays open; tests call sweep() and deliverDue() by hand. */
   escalations: EscalationService;
+  /** Stops and starts lines at the plant's shift boundaries; tests call sweep() by hand. */
+  calendar: CalendarService;
 }

@@ -10,6 +10,8 @@ export const lineBody = z.strictObject({
   code,
   name: freeText(100),
   packsPerHour: z.number().positive().max(1_000_000).nullable().optional(),
+  /** Runs round the clock: the plant calendar never stops it. */
+  continuous: z.boolean().optional(),
 });
 export const linePatch = lineBody.partial();
 export const lineParams = z.strictObject({ lineId: idParam });
@@ -25,6 +27,7 @@ export const lineViewSchema = z.strictObject({
   code: z.string(),
   name: z.string(),
   packsPerHour: z.number().nullable(),
+  continuous: z.boolean(),
   product: productViewSchema.nullable(),
   runId: z.number().nullable(),
   runStartedAt: instantOrNull,

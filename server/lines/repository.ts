@@ -5,6 +5,8 @@ export interface Line {
   code: string;
   name: string;
   packsPerHour: number | null;
+  /** Runs round the clock: the plant calendar never stops it. */
+  continuous: boolean;
 }
 
 export interface Run {
@@ -20,6 +22,7 @@ interface LineRow {
   code: string;
   name: string;
   packs_per_hour: number | null;
+  continuous: number;
 }
 interface RunRow {
   id: number;
@@ -29,16 +32,16 @@ interface RunRow {
   ended_at: number | null;
 }
 
-const toLine = (r: LineRow): Line => ({ id: r.id, code: r.code, name: r.name, packsPerHour: r.packs_per_hour });
+const toLine = (r: LineRow): Line => ({ id: r.id, code: r.code, name: r.name, packsPerHour: r.packs_per_hour, continuous: r.continuous === 1 });
 const toRun = (r: RunRow): Run => ({ id: r.id, lineId: r.line_id, productId: r.product_id, startedAt: r.started_at, endedAt: r.ended_at });
 
 export function createLineRepository(db: Db) {
   const byId = db.prepare('SELECT * FROM lines WHERE id = ?');
   const all = db.prepare('SELECT * FROM lines ORDER BY code');
   const insert = db.prepare(
-    'INSERT INTO lines (code, name, packs_per_hour, created_at, updated_at) VALUES (@code, @name, @packsPerHour, @at, @at)',
+    'INSERT INTO lines (code, name, packs_per_hour, continuous, created_at, updated_at) VALUES (@code, @name, @packsPerHour, @continuous, @at, @at)',
   );
-  const update = db.prepare('UPDATE lines SET code = @code, name = @name, packs_per_hour = @packsPerHour, updated_at = @at WHERE id = @id');
+  const update = db.prepare('UPDATE lines SET code = @code, name = @name, packs_per_hour = @packsPerHour, continuous = @continuous, updated_at = @at WHERE id = @id');
   const openRun = db.prepare('SELECT * FROM runs WHERE line_id = ? AND ended_at IS NULL');
   const runById = db.prepare('SELECT * FROM runs WHERE id = ?');
   const endRun = db.prepare('UPDATE runs SET ended_at = @at WHERE id = @id');
@@ -55,11 +58,11 @@ export function createLineRepository(db: Db) {
       return (all.all() as LineRow[]).map(toLine);
     },
     create(fields: Omit<Line, 'id'>, at: number): Line {
-      const id = Number(insert.run({ ...fields, at }).lastInsertRowid);
+      const id = Number(insert.run({ ...fields, continuous: fields.continuous ? 1 : 0, at }).lastInsertRowid);
       return this.get(id) as Line;
     },
     update(line: Line, at: number): Line {
-      update.run({ ...line, at });
+      update.run({ ...line, continuous: line.continuous ? 1 : 0, at });
       return this.get(line.id) as Line;
     },
     openRun(lineId: number): Run | null {

@@ -22,6 +22,7 @@ export const linesPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fast
       code: line.code,
       name: line.name,
       packsPerHour: line.packsPerHour,
+      continuous: line.continuous,
       product: state.product ? productView(state.product) : null,
       runId: state.run?.id ?? null,
       runStartedAt: state.run ? new Date(state.run.startedAt).toISOString() : null,
@@ -40,7 +41,7 @@ export const linesPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fast
   });
 
   app.post('/api/lines', { config: { roles: ADMIN }, schema: { body: lineBody, response: { 201: lineAnswer } } }, async (req, reply) => {
-    const line = lines.create({ code: req.body.code, name: req.body.name, packsPerHour: req.body.packsPerHour ?? null }, actorName(requireActor(req)));
+    const line = lines.create({ code: req.body.code, name: req.body.name, packsPerHour: req.body.packsPerHour ?? null, continuous: req.body.continuous ?? false }, actorName(requireActor(req)));
     return reply.code(201).send({ line: lineView(line) });
   });
 

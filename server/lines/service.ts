@@ -23,7 +23,12 @@ export function createLineService(ctx: Pick<HeftContext, 'db' | 'clock' | 'repos
     update(lineId: number, change: Partial<Omit<Line, 'id'>>, actor: string): Line {
       const before = repos.lines.get(lineId);
       if (!before) throw notFound(`line ${lineId}`);
-      const next: Line = { ...before, ...change, packsPerHour: change.packsPerHour === undefined ? before.packsPerHour : change.packsPerHour };
+      const next: Line = {
+        ...before,
+        ...change,
+        packsPerHour: change.packsPerHour === undefined ? before.packsPerHour : change.packsPerHour,
+        continuous: change.continuous ?? before.continuous,
+      };
       if (next.code !== before.code && codeTaken(next.code, before.id)) throw conflict(`a line with code ${next.code} exists already`);
       const now = clock.now();
       const line = db.transaction(() => {

@@ -34,6 +34,8 @@ const MATRIX: Record<string, { who: Principal[]; url: string; payload?: object; 
   'POST /api/lines': { who: ADMIN, url: '/api/lines', payload: {}, ok: 400 },
   'PATCH /api/lines/:lineId': { who: ADMIN, url: '/api/lines/1', payload: {}, ok: 200 },
   'PUT /api/lines/:lineId/product': { who: SUP, url: '/api/lines/1/product', payload: {}, ok: 400 },
+  'GET /api/calendar': { who: PEOPLE, url: '/api/calendar', ok: 200 },
+  'PUT /api/calendar': { who: ADMIN, url: '/api/calendar', payload: {}, ok: 400 },
   'GET /api/escalations': { who: QUAL, url: '/api/escalations', ok: 200 },
   'POST /api/escalations': { who: QUAL, url: '/api/escalations', payload: {}, ok: 400 },
   'PATCH /api/escalations/:id': { who: QUAL, url: '/api/escalations/999', payload: {}, ok: 404 },

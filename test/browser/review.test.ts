@@ -86,6 +86,9 @@ describe.skipIf(!HAVE_CHROMIUM)('the quality manager’s review', () => {
     // the intervals say where σ came from: a baseline with its ν, or a configured σ taken as known
     expect(onScreen).toMatch(/σ from the baseline with ν ≈ \d+ \(Patnaik\)/);
     expect(onScreen).toMatch(/σ configured, taken as known: only the mean is uncertain/);
+    // the demo's line 3 was cleaned for 40 minutes after its changeover, and one alert was shelved with a reason
+    expect(onScreen).toMatch(/0\.7 h stopped \(cleaning 0\.7 h\)/);
+    expect(onScreen).toMatch(/shelved 1× by [a-z.]+: known: film reel being changed on this line/);
     // the reference test's allowance at the advised target
     expect(onScreen).toMatch(/allowance 0\.379·s = [\d.]+ g/);
     await page.screenshot({ path: `${ARTIFACTS}review.png`, fullPage: true });
