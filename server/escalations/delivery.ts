@@ -41,7 +41,10 @@ export function networkDeliverers(options: { smtpUrl: string | undefined; mailFr
         if (res.status === 410) return { ok: false, retry: false, gone: true, error: 'HTTP 410 Gone' };
         return { ok: false, retry: res.status >= 500 || res.status === 429 || res.status === 408, error: `HTTP ${res.status}` };
       } catch (err) {
-        return { ok: false, retry: true, error: err instanceof Error ? `${err.name}: ${err.message}` : String(err) };
+        // fetch hides the network's own reason (ECONNREFUSED, a timeout) in `cause`
+        const cause = (err as { cause?: { code?: string; message?: string } }).cause;
+        const reason = cause?.code ?? cause?.message;
+        return { ok: false, retry: true, error: err instanceof Error ? `${err.message}${reason ? ` (${reason})` : ''}` : String(err) };
       }
     },
   };

@@ -104,7 +104,24 @@ export const lineSectionSchema = z.strictObject({
   events: z.array(reviewEventSchema),
   medianMinutesToAcknowledge: z.number().nullable(),
   medianMinutesToResolve: z.number().nullable(),
-  alertLoad: z.strictObject({ days: z.number(), shiftAlerts: z.number(), perDay: z.number(), predictedFalseAlarmsPerDay: z.number(), note: z.string() }),
+  /** Shift alerts against the rule set's predicted false alarms, and the alarm-load figures (EEMUA 191 style) over every alert of the range. */
+  alertLoad: z.strictObject({
+    days: z.number(),
+    shiftAlerts: z.number(),
+    perDay: z.number(),
+    predictedFalseAlarmsPerDay: z.number(),
+    /** False alarms the rule set's ARL₀ predicts for the checks due in the hours actually running. */
+    predictedFalseAlarmsWhileRunning: z.number(),
+    alerts: z.number(),
+    alertsPerDay: z.number(),
+    per10Minutes: z.number(),
+    busiest10Minutes: z.number(),
+    floodShare: z.number(),
+    standingOver24h: z.number(),
+    topRuleCombinations: z.array(z.strictObject({ rules: z.array(z.string()), alerts: z.number() })),
+    bySeverity: z.array(z.strictObject({ severity: z.enum(['watch', 'act']), alerts: z.number(), medianMinutesToAcknowledge: z.number().nullable(), medianMinutesToResolve: z.number().nullable() })),
+    note: z.string(),
+  }),
   operators: z.array(z.strictObject({ name: z.string(), checks: z.number() })),
   products: z.array(productSectionSchema),
 });

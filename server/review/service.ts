@@ -11,6 +11,7 @@ import { capability, capabilityFromSources, sigmaDegreesOfFreedom, varianceOfMea
 import { estimateSigma, defaultSigmaMethod } from '../stats/control-limits.js';
 import { mean, sampleSd } from '../stats/descriptive.js';
 import { averageSystemPosition, lowestTarget, referenceTestPassChance, referenceTestPlan } from '../stats/net-quantity.js';
+import { alarmLoad } from '../stats/alarm-load.js';
 import { resolveRuleSet } from '../stats/rule-set.js';
 import { fTest, welchTest } from '../stats/two-sample.js';
 import type { CapabilityView, Comparison, LineSection, ProductSection, Review } from './contract.js';
@@ -229,13 +230,17 @@ export function createReviewService(ctx: HeftContext) {
     const sections: ProductSection[] = [];
     let due = 0;
     let predicted = 0;
+    let predictedRunning = 0;
     for (const part of settingsParts(line.id, repo.productsIn(line.id, from, to), from, to)) {
       const p = part.version.product;
-      due += minutesRunning(ctx, line.id, p.id, part.from, part.to) / p.samplingMinutes;
+      const dueHere = minutesRunning(ctx, line.id, p.id, part.from, part.to) / p.samplingMinutes;
+      const arl = falseAlarmFigure(resolveRuleSet(p.rules), p.subgroupSize, p.samplingMinutes).arlChecks;
+      due += dueHere;
+      predictedRunning += dueHere / arl;
       const checks = repo.checks(line.id, p.id, part.from, part.to);
       if (checks.length === 0) continue;
       sections.push(productSection(line, part.version, part.limits, part.from, part.to, alerts, checks));
-      predicted += checks.length / falseAlarmFigure(resolveRuleSet(p.rules), p.subgroupSize, p.samplingMinutes).arlChecks;
+      predicted += checks.length / arl;
     }
     due = Math.floor(due + 1e-9);
     const taken = sections.reduce((acc, s) => acc + s.checks, 0);
@@ -263,6 +268,8 @@ export function createReviewService(ctx: HeftContext) {
         shiftAlerts: shiftAlerts.length,
         perDay: shiftAlerts.length / days,
         predictedFalseAlarmsPerDay: predicted / days,
+        predictedFalseAlarmsWhileRunning: predictedRunning,
+        ...alarmLoad(inRange, from, Math.min(to, ctx.clock.now())),
         note: 'predicted: in-control false alarms of the enabled rule set (ARL₀) for the checks taken; shift alerts above it point to real shifts',
       },
       operators: repo.operatorsIn(line.id, from, to),

@@ -89,6 +89,9 @@ describe.skipIf(!HAVE_CHROMIUM)('the quality manager’s review', () => {
     // the demo's line 3 was cleaned for 40 minutes after its changeover, and one alert was shelved with a reason
     expect(onScreen).toMatch(/0\.7 h stopped \(cleaning 0\.7 h\)/);
     expect(onScreen).toMatch(/shelved 1× by [a-z.]+: known: film reel being changed on this line/);
+    // the alarm-load figures per line
+    expect(onScreen).toMatch(/10-minute windows in flood \(more than 10 new alerts\)\s+0\.00 %/);
+    expect(onScreen).toMatch(/False alarms the rule set predicts for the hours running\s+\d+\.\d\d/);
     // the reference test's allowance at the advised target
     expect(onScreen).toMatch(/allowance 0\.379·s = [\d.]+ g/);
     await page.screenshot({ path: `${ARTIFACTS}review.png`, fullPage: true });

@@ -181,6 +181,21 @@ function renderLine(s: LineSection): HTMLElement {
       fact('Shift alerts per day', `${s.alertLoad.perDay.toFixed(2)} (false alarms expected: ${s.alertLoad.predictedFalseAlarmsPerDay.toFixed(2)})`),
     ),
   );
+  const load = s.alertLoad;
+  box.append(
+    el('h3', {}, 'Alarm load'),
+    table(
+      ['Figure', 'Value'],
+      [
+        ['Alerts (all kinds)', `${load.alerts} (${load.alertsPerDay.toFixed(1)} a day, ${load.per10Minutes.toFixed(3)} per 10 min; at most ${load.busiest10Minutes} in one 10 min)`],
+        ['10-minute windows in flood (more than 10 new alerts)', `${(100 * load.floodShare).toFixed(2)} %`],
+        ['Standing over 24 h', String(load.standingOver24h)],
+        ['False alarms the rule set predicts for the hours running', load.predictedFalseAlarmsWhileRunning.toFixed(2)],
+        ...load.bySeverity.map((x) => [`Time to acknowledge / resolve, ${x.severity} (${x.alerts})`, `${minutes(x.medianMinutesToAcknowledge)} / ${minutes(x.medianMinutesToResolve)} (medians)`]),
+        ['Most frequent rule sets', load.topRuleCombinations.map((c) => `${c.rules.join(' + ')} (${c.alerts})`).join('; ') || '—'],
+      ],
+    ),
+  );
   box.append(el('h3', {}, `Process-shift events (${s.events.length})`));
   if (s.events.length === 0) box.append(el('p', { class: 'muted' }, 'None in this range.'));
   else {
