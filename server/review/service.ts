@@ -11,7 +11,7 @@ import { capability, capabilityFromSources, sigmaDegreesOfFreedom, varianceOfMea
 import { estimateSigma, defaultSigmaMethod } from '../stats/control-limits.js';
 import { mean, sampleSd } from '../stats/descriptive.js';
 import { averageSystemPosition, lowestTarget, referenceTestPassChance, referenceTestPlan } from '../stats/net-quantity.js';
-import { alarmLoad } from '../stats/alarm-load.js';
+import { alarmLoad, median } from '../stats/alarm-load.js';
 import { resolveRuleSet } from '../stats/rule-set.js';
 import { fTest, welchTest } from '../stats/two-sample.js';
 import type { CapabilityView, Comparison, LineSection, ProductSection, Review } from './contract.js';
@@ -23,13 +23,6 @@ const pWords = (p: number) => (p < 0.0001 ? 'p < 0.0001' : `p = ${p.toFixed(4)}`
 export const MIN_CAPABILITY_CHECKS = 20;
 const MINUTE = 60_000;
 const DAY = 86_400_000;
-
-function median(values: number[]): number | null {
-  if (values.length === 0) return null;
-  const sorted = [...values].sort((a, b) => a - b);
-  const mid = Math.floor(sorted.length / 2);
-  return sorted.length % 2 ? (sorted[mid] as number) : ((sorted[mid - 1] as number) + (sorted[mid] as number)) / 2;
-}
 
 const overlap = (a0: number, a1: number, b0: number, b1: number) => Math.max(0, Math.min(a1, b1) - Math.max(a0, b0));
 

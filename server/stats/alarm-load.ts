@@ -25,7 +25,8 @@ export interface AlarmLoad {
 const WINDOW = 10 * 60_000;
 const FLOOD = 10;
 
-function median(values: number[]): number | null {
+/** The middle value (the mean of the two middle ones for an even count); null for none. */
+export function median(values: number[]): number | null {
   if (values.length === 0) return null;
   const s = [...values].sort((a, b) => a - b);
   const mid = Math.floor(s.length / 2);
