@@ -80,6 +80,8 @@ export const alertViewSchema = alertSummarySchema.extend({
   resolved: z.strictObject({ by: z.string().nullable(), at: instant, cause: z.string().nullable(), action: z.string().nullable() }).nullable(),
   /** The latest shelving (null if never shelved): shelved now while `until` lies ahead. */
   shelved: z.strictObject({ until: instant, by: z.string().nullable(), reason: z.string().nullable(), times: z.number() }).nullable(),
+  /** Who escalation told of the alert, by which rule and channel, and when it was sent. */
+  told: z.array(z.strictObject({ rule: z.string(), channel: z.enum(['email', 'webhook']), at: instant })),
 });
 export type AlertView = z.output<typeof alertViewSchema>;
 

@@ -204,6 +204,10 @@ export function createAlertRepository(db: Db) {
      WHERE id = @id`,
   );
   const byId = db.prepare('SELECT * FROM alerts WHERE id = ?');
+  // who escalation told of the alert (sent e-mail and webhooks), for the alert's view
+  const told = db.prepare(
+    "SELECT rule_name AS rule, channel, sent_at AS at FROM notifications WHERE alert_id = ? AND status = 'sent' AND event_type IN ('alert.opened', 'alert.escalated') ORDER BY sent_at, id",
+  );
   const unresolved = db.prepare("SELECT * FROM alerts WHERE state != 'resolved' ORDER BY id");
   const list = db.prepare(
     `SELECT * FROM (SELECT * FROM alerts
@@ -227,6 +231,10 @@ export function createAlertRepository(db: Db) {
   const alertsOfCheck = db.prepare('SELECT DISTINCT alert_id AS id FROM signals WHERE check_id = ? ORDER BY alert_id');
 
   return {
+    /** Who was told of the alert by escalation, and when it was sent. */
+    told(alertId: number): { rule: string; channel: 'email' | 'webhook'; at: number }[] {
+      return told.all(alertId) as { rule: string; channel: 'email' | 'webhook'; at: number }[];
+    },
     insert(alert: Omit<StoredAlert, 'id'>): StoredAlert {
       const id = Number(insert.run(alertParams(alert)).lastInsertRowid);
       return { ...alert, id };

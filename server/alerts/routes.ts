@@ -44,7 +44,7 @@ export const alertsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
       const page = repos.alerts.signalPage(alert.id, req.query.before ?? null, req.query.limit);
       const oldest = page[0];
       const more = oldest !== undefined && repos.alerts.signalPage(alert.id, oldest.id, 1).length > 0;
-      return { alert: alertView(alert, page), nextBefore: more ? (oldest?.id ?? null) : null, notifications: ctx.escalations.notificationsOf(alert.id).map(notificationView) };
+      return { alert: alertView(alert, page, repos.alerts.told(alert.id)), nextBefore: more ? (oldest?.id ?? null) : null, notifications: ctx.escalations.notificationsOf(alert.id).map(notificationView) };
     },
   );
 

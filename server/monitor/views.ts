@@ -121,17 +121,18 @@ export function alertSummary(a: StoredAlert): AlertSummary {
 }
 
 /** An alert in full: the summary, who saw to it and why, and a page of its signals. */
-export function alertView(a: StoredAlert, signals: readonly StoredSignal[]): AlertView {
+export function alertView(a: StoredAlert, signals: readonly StoredSignal[], told: readonly { rule: string; channel: 'email' | 'webhook'; at: number }[] = []): AlertView {
   return {
     ...alertSummary(a),
     signals: signals.map(signalView),
     acknowledged: a.acknowledgedAt === null ? null : { by: a.acknowledgedBy, at: toIso(a.acknowledgedAt), note: a.acknowledgeNote },
     resolved: a.resolvedAt === null ? null : { by: a.resolvedBy, at: toIso(a.resolvedAt), cause: a.cause, action: a.action },
     shelved: a.shelvedUntil === null ? null : { until: toIso(a.shelvedUntil), by: a.shelvedBy, reason: a.shelveReason, times: a.shelveCount },
+    told: told.map((t) => ({ rule: t.rule, channel: t.channel, at: toIso(t.at) })),
   };
 }
 
 /** An alert's full view with its latest signals read from storage. */
 export function alertViewFrom(alerts: AlertRepository, a: StoredAlert): AlertView {
-  return alertView(a, alerts.signalPage(a.id, null, SIGNALS_IN_VIEW));
+  return alertView(a, alerts.signalPage(a.id, null, SIGNALS_IN_VIEW), alerts.told(a.id));
 }

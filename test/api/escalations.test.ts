@@ -93,6 +93,10 @@ describe('escalation', () => {
     expect(() => new Webhook(`whsec_${Buffer.from('another secret of 24 b.').toString('base64')}`).verify(got?.body as string, headers)).toThrow();
     const detail = (await t.app.inject({ method: 'GET', url: `/api/alerts/${alertId}`, headers: { cookie: t.cookies.supervisor } })).json();
     expect(detail.notifications.map((n: { rule: string; channel: string; status: string; attempts: number }) => [n.rule, n.channel, n.status, n.attempts])).toEqual([['night supervisor', 'webhook', 'sent', 1]]);
+    // the alert's own view (lists, the board's card) says who was told and when
+    expect(detail.alert.told).toEqual([{ rule: 'night supervisor', channel: 'webhook', at: new Date(t.clock.now()).toISOString() }]);
+    const listed = (await t.app.inject({ method: 'GET', url: '/api/alerts?state=open', headers: { cookie: t.cookies.supervisor } })).json().alerts;
+    expect(listed.find((x: { id: number }) => x.id === alertId).told.map((x: { rule: string }) => x.rule)).toEqual(['night supervisor']);
     // acknowledging tells the same webhook, once
     await t.app.inject({ method: 'POST', url: `/api/alerts/${alertId}/acknowledge`, headers: { cookie: t.cookies.supervisor }, payload: { note: 'on my way' } });
     expect(t.app.heft.escalations.sweep()).toBe(1);

@@ -104,6 +104,9 @@ function alertItem(a: Alert, v: LineView, withButtons: boolean): HTMLElement {
   if (a.shelved && a.state === 'open' && Date.parse(a.shelved.until) > Date.now()) {
     item.append(el('div', { class: 'muted', 'data-shelved': '' }, `shelved until ${clock(a.shelved.until, board.plant.timeZone)} by ${a.shelved.by ?? '—'}: ${a.shelved.reason ?? ''}`));
   }
+  if (a.told.length > 0) {
+    item.append(el('div', { class: 'muted', 'data-told': '' }, `told: ${a.told.map((t) => `${t.rule} (${t.channel === 'email' ? 'e-mail' : 'webhook'}) ${clock(t.at, board.plant.timeZone)}`).join('; ')}`));
+  }
   if (a.resolved) item.append(el('div', { class: 'muted' }, `cause: ${a.resolved.cause} · action: ${a.resolved.action}`));
   if (withButtons && a.state !== 'resolved') {
     const buttons = el('div', { class: 'buttons' });
@@ -354,7 +357,7 @@ $('signout').addEventListener('click', async () => {
 function applyAlert(alert: Alert | AlertSummary): void {
   const v = board.lines.get(alert.lineId);
   if (!v) return;
-  v.alerts.set(alert.id, { signals: [], acknowledged: null, resolved: null, shelved: null, ...v.alerts.get(alert.id), ...alert });
+  v.alerts.set(alert.id, { signals: [], acknowledged: null, resolved: null, shelved: null, told: [], ...v.alerts.get(alert.id), ...alert });
   if (v.status) v.status.openAlerts = [...v.alerts.values()].filter((a) => a.state !== 'resolved');
   refreshTile(v);
 }
