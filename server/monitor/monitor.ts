@@ -13,12 +13,13 @@ import type { Basis, ProductRepository } from '../products/repository.js';
 import { meanChartLimits, spreadChartLimits } from '../stats/control-limits.js';
 import { freshSegment } from '../stats/judge.js';
 import { AlertsService } from './alerts-service.js';
+import { SamplingClock } from './sampling-clock.js';
 import { checkStep, type CheckInput, type CheckStep } from './check-step.js';
 import { alertKey, LineRuntimes, SEGMENT_MEMORY, type LineRuntime, type SegmentPoint } from './line-runtime.js';
 import type { MonitorStateRepository } from './state-repository.js';
 import type { AlertSummary, AlertView, CheckSignalView } from '../alerts/contract.js';
 import type { CheckView } from '../checks/contract.js';
-import { alertSummary, alertView, alertViewFrom, checkSignalView, checkView } from './views.js';
+import { alertSummary, alertViewFrom, checkSignalView, checkView } from './views.js';
 
 
 /** A batch whose transaction SQLite rolled back on its own; carries the error that caused it. */
@@ -86,6 +87,7 @@ export class Monitor {
   private readonly publish: (events: LiveEvent[]) => void;
   private readonly lines: LineRuntimes;
   private readonly alerts: AlertsService;
+  private readonly sampling: SamplingClock;
   /** While a batch runs: the messages held back until its commit, and the lines it moved. */
   private batch: { messages: LiveEvent[]; lines: Set<number> } | null = null;
 
@@ -97,6 +99,16 @@ export class Monitor {
     this.publish = options.publish;
     this.lines = new LineRuntimes(options.repos);
     this.alerts = new AlertsService(options.repos.alerts, options.repos.audit);
+    this.sampling = new SamplingClock({
+      db: this.db,
+      clock: this.clock,
+      repos: this.repos,
+      lines: this.lines,
+      alerts: this.alerts,
+      graceMs: this.graceMs,
+      record: (at, bodies) => this.record(at, bodies),
+      emit: (messages, lineId) => this.emit(messages, lineId),
+    });
   }
 
   /** Sends committed messages, or holds them until the batch they belong to has committed. */
@@ -385,73 +397,14 @@ export class Monitor {
     return outcome.view;
   }
 
-  // ---------------------------------------------------------------- overdue
+  // ---------------------------------------------------------------- the sampling clock (sampling-clock.ts)
 
-  /** Opens "check overdue" on every running line whose sampling interval plus grace has passed with no check. */
-  sweepOverdue(): AlertView[] {
-    const now = this.clock.now();
-    const opened: AlertView[] = [];
-    for (const runtime of this.lines.all()) {
-      const due = this.nextDue(runtime);
-      if (due === null || now <= due + this.graceMs) continue;
-      if (runtime.openAlerts.has(alertKey('check-overdue', null))) continue;
-      const { alert, messages } = this.db.transaction(() => {
-        const created = this.alerts.openOverdue(runtime, due, now);
-        return { alert: created, messages: this.record(now, [{ type: 'alert-opened', lineId: runtime.line.id, alert: alertView(created, []) }]) };
-      }).immediate();
-      runtime.openAlerts.set(alertKey('check-overdue', null), alert);
-      opened.push(alertView(alert, []));
-      this.emit(messages, runtime.line.id);
-    }
-    return opened;
-  }
-
-  /** When the next check falls due: one interval after the last check, the run's start or the line's restart, whichever is latest; never while stopped. */
-  private nextDue(runtime: LineRuntime): number | null {
-    if (!runtime.run || !runtime.product || runtime.stop) return null;
-    const from = Math.max(runtime.lastTakenAt ?? runtime.run.startedAt, runtime.run.startedAt, runtime.resumedAt ?? 0);
-    return from + runtime.product.samplingMinutes * 60_000;
-  }
-
-  // ---------------------------------------------------------------- stopping and starting
-
-  /** The line stands still: no check falls due until it starts again, and an open "check overdue" closes. */
-  stopLine(lineId: number, reason: StopReason, note: string | null, actor: string): LineStop {
-    const runtime = this.lines.get(lineId);
-    if (runtime.stop) throw conflict(`line ${runtime.line.code} is already stopped (${runtime.stop.reason}) since ${new Date(runtime.stop.stoppedAt).toISOString()}`);
-    const now = this.clock.now();
-    const done = this.db.transaction(() => {
-      const stop = this.repos.stops.stop(lineId, reason, note, now, actor);
-      const closed = this.alerts.closeOverdue(new Map(runtime.openAlerts), 'line stopped', now);
-      this.repos.audit.record({ at: now, actor, action: 'line.stop', entity: 'line', entityId: lineId, after: { stopId: stop.id, reason, note } });
-      const messages = this.record(now, [
-        ...(closed ? [{ type: 'alert-updated' as const, lineId, alert: alertViewFrom(this.repos.alerts, closed) }] : []),
-        { type: 'line-status', lineId, reason: 'stopped' },
-      ]);
-      return { stop, closed, messages };
-    }).immediate();
-    runtime.stop = done.stop;
-    if (done.closed) runtime.openAlerts.delete(alertKey('check-overdue', null));
-    this.emit(done.messages, lineId);
-    return done.stop;
-  }
-
+  /** "Check overdue" on every running line whose interval plus grace has passed with no check. */
+  sweepOverdue = (): AlertView[] => this.sampling.sweepOverdue();
+  /** The line stands still: no check falls due until it starts; an open "check overdue" closes. */
+  stopLine = (lineId: number, reason: StopReason, note: string | null, actor: string): LineStop => this.sampling.stopLine(lineId, reason, note, actor);
   /** The line runs again: its first check is due one sampling interval from now. */
-  startLine(lineId: number, actor: string): LineStop {
-    const runtime = this.lines.get(lineId);
-    const open = runtime.stop;
-    if (!open) throw conflict(`line ${runtime.line.code} is running already`);
-    const now = this.clock.now();
-    const done = this.db.transaction(() => {
-      const ended = this.repos.stops.start(open.id, now, actor);
-      this.repos.audit.record({ at: now, actor, action: 'line.start', entity: 'line', entityId: lineId, before: { stopId: open.id, reason: open.reason }, after: null });
-      return { ended, messages: this.record(now, [{ type: 'line-status', lineId, reason: 'started' }]) };
-    }).immediate();
-    runtime.stop = null;
-    runtime.resumedAt = now;
-    this.emit(done.messages, lineId);
-    return done.ended;
-  }
+  startLine = (lineId: number, actor: string): LineStop => this.sampling.startLine(lineId, actor);
 
   // ---------------------------------------------------------------- reading
 
@@ -459,7 +412,7 @@ export class Monitor {
   lineState(lineId: number) {
     const runtime = this.lines.get(lineId);
     const { product, model, run } = runtime;
-    const due = this.nextDue(runtime);
+    const due = this.sampling.nextDue(runtime);
     const open = [...runtime.openAlerts.values()];
     const status: 'steady' | 'watch' | 'act' = open.some((a) => a.severity === 'act') ? 'act' : open.length > 0 ? 'watch' : 'steady';
     const n = product?.subgroupSize ?? 1;

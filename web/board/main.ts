@@ -3,9 +3,10 @@ import './board.css';
 import type uPlot from 'uplot';
 import { api, ApiError, getPlant, signIn, signOut, whoAmI, type Alert, type AlertSummary, type Check, type Line, type Plant, type Status, type User } from '../shared/api.js';
 import { meanChart, meanChartData, spreadChart, type ChartPoint } from '../shared/charts.js';
-import { alertTitle, clock, dateTime, duration, el, overUnder, STOP_REASON_WORDS, stopWords, weight } from '../shared/format.js';
+import { alertTitle, clock, dateTime, duration, el, overUnder, stopWords, weight } from '../shared/format.js';
 import { LiveClient, type LiveMessage } from '../shared/live.js';
-import { dueWords, shiftSizeWords as sizeWords, twoToneChime } from './words-and-sound.js';
+import { alertItem, renderRunControls } from './cards.js';
+import { dueWords, twoToneChime } from './words-and-sound.js';
 
 const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as T;
 const MAX_POINTS = 60;
@@ -87,48 +88,6 @@ function lineState(v: LineView): 'steady' | 'watch' | 'act' | 'idle' {
   return open.length > 0 ? 'watch' : 'steady';
 }
 
-function alertItem(a: Alert, v: LineView, withButtons: boolean): HTMLElement {
-  const unit = v.status?.product?.unit ?? 'g';
-  const age = duration(Date.now() - Date.parse(a.openedAt));
-  const state = a.state === 'open' ? 'OPEN' : a.state === 'acknowledged' ? `acknowledged by ${a.acknowledged?.by}` : `resolved by ${a.resolved?.by}`;
-  const item = el(
-    'div',
-    { class: `alert ${a.severity}`, 'data-alert': String(a.id) },
-    el('div', { class: 'what' }, `${a.severity === 'act' ? '■ act' : '▲ watch'} · ${alertTitle(a.kind, a.direction)}`),
-    el('div', {}, a.ruleWords.join(', ')),
-    el('div', {}, [sizeWords(a, unit), `${age} ago`].filter(Boolean).join(' · ')),
-    el('div', { class: 'state' }, state),
-  );
-  if (a.kind !== 'check-overdue' && a.onset.at) item.append(el('div', { class: 'muted' }, `began about ${dateTime(a.changePoint?.at ?? a.onset.at, board.plant.timeZone)}`));
-  if (a.acknowledged?.note) item.append(el('div', { class: 'muted' }, `note: ${a.acknowledged.note}`));
-  if (a.shelved && a.state === 'open' && Date.parse(a.shelved.until) > Date.now()) {
-    item.append(el('div', { class: 'muted', 'data-shelved': '' }, `shelved until ${clock(a.shelved.until, board.plant.timeZone)} by ${a.shelved.by ?? '—'}: ${a.shelved.reason ?? ''}`));
-  }
-  if (a.told.length > 0) {
-    item.append(el('div', { class: 'muted', 'data-told': '' }, `told: ${a.told.map((t) => `${t.rule} (${t.channel === 'email' ? 'e-mail' : 'webhook'}) ${clock(t.at, board.plant.timeZone)}`).join('; ')}`));
-  }
-  if (a.resolved) item.append(el('div', { class: 'muted' }, `cause: ${a.resolved.cause} · action: ${a.resolved.action}`));
-  if (withButtons && a.state !== 'resolved') {
-    const buttons = el('div', { class: 'buttons' });
-    if (a.state === 'open') {
-      const ack = el('button', { type: 'button', 'data-ack': String(a.id) }, 'Acknowledge');
-      ack.addEventListener('click', (e) => {
-        e.stopPropagation();
-        void act(a, 'acknowledge');
-      });
-      buttons.append(ack);
-    }
-    const resolve = el('button', { type: 'button', 'data-resolve': String(a.id) }, 'Resolve');
-    resolve.addEventListener('click', (e) => {
-      e.stopPropagation();
-      void act(a, 'resolve');
-    });
-    buttons.append(resolve);
-    item.append(buttons);
-  }
-  return item;
-}
-
 function renderTile(v: LineView): HTMLElement {
   const state = lineState(v);
   const p = v.status?.product ?? null;
@@ -147,7 +106,7 @@ function renderTile(v: LineView): HTMLElement {
   if (stop) tile.append(el('div', { class: 'due stopped', 'data-stopped': '' }, stopWords(stop, board.plant.timeZone)));
   else tile.append(el('div', { class: `due${due.late ? ' late' : ''}`, 'data-due': '' }, due.text));
   const list = el('div', { class: 'alert-list' });
-  for (const a of visibleAlerts(v).slice(0, 3)) list.append(alertItem(a, v, true));
+  for (const a of visibleAlerts(v).slice(0, 3)) list.append(alertItem(a, v.status?.product?.unit ?? 'g', board.plant.timeZone, act));
   tile.append(list);
   tile.addEventListener('click', () => openDetail(v.line.id));
   tile.addEventListener('keydown', (e) => {
@@ -216,41 +175,12 @@ $('detail-close').addEventListener('click', () => {
   renderTiles();
 });
 
-/** Start or stop the line from the wall, for a person signed in: "stopped — cleaning, since 14:05" and "Start line", or a reason and "Stop line". */
-function renderRunControls(v: LineView): void {
-  const box = $('detail-run');
-  const stop = v.status?.stop ?? null;
-  const words = el('span', { 'data-running': String(!stop) }, stop ? stopWords(stop, board.plant.timeZone) : 'running');
-  if (!board.user) {
-    box.replaceChildren(words);
-    return;
-  }
-  const send = async (path: 'stop' | 'start', body?: Record<string, unknown>) => {
-    try {
-      await api('POST', `/api/lines/${v.line.id}/${path}`, body);
-      problem(null);
-    } catch (err) {
-      problem(err instanceof ApiError ? (err.body?.message ?? 'The line could not be changed') : 'The server cannot be reached.');
-    }
-  };
-  if (stop) {
-    const start = el('button', { type: 'button' }, 'Start line');
-    start.addEventListener('click', () => void send('start'));
-    box.replaceChildren(words, start);
-    return;
-  }
-  const reason = el('select', { id: 'board-stop-reason' }, ...Object.entries(STOP_REASON_WORDS).map(([value, text]) => el('option', { value }, text)));
-  const stopButton = el('button', { type: 'button' }, 'Stop line');
-  stopButton.addEventListener('click', () => void send('stop', { reason: reason.value }));
-  box.replaceChildren(words, el('label', { for: 'board-stop-reason' }, 'Reason'), reason, stopButton);
-}
-
 function renderDetail(): void {
   const v = board.lines.get(board.detailLine ?? -1);
   if (!v) return;
   const p = v.status?.product;
   $('detail-title').textContent = `${v.line.code} ${v.line.name}${p ? ` — ${p.name}` : ''} · ${lineState(v)}`;
-  renderRunControls(v);
+  renderRunControls($('detail-run'), v.line.id, v.status?.stop ?? null, board.user !== null, board.plant.timeZone, problem);
   for (const c of detailCharts) c.destroy();
   detailCharts = [];
   const limits = v.status?.limits;
@@ -267,7 +197,7 @@ function renderDetail(): void {
   }
   const list = $('detail-alerts');
   const all = [...v.alerts.values()].sort((a, b) => Date.parse(b.openedAt) - Date.parse(a.openedAt));
-  list.replaceChildren(...(all.length ? all.map((a) => alertItem(a, v, true)) : [el('p', { class: 'muted' }, 'No alerts in this run.')]));
+  list.replaceChildren(...(all.length ? all.map((a) => alertItem(a, v.status?.product?.unit ?? 'g', board.plant.timeZone, act)) : [el('p', { class: 'muted' }, 'No alerts in this run.')]));
 }
 
 // ------------------------------------------------------------------ acting on alerts
