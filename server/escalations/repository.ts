@@ -146,6 +146,7 @@ export function createEscalationRepository(db: Db) {
   const deleteRule = db.prepare('DELETE FROM escalation_rules WHERE id = ?');
   const disable = db.prepare('UPDATE escalation_rules SET enabled = 0, disabled_reason = @reason, updated_at = @at WHERE id = @id');
   const due = db.prepare(DUE_SQL);
+  const enabledRules = db.prepare('SELECT COUNT(*) AS n FROM escalation_rules WHERE enabled = 1');
   const followUps = db.prepare(FOLLOW_UP_SQL);
   const insertNotification = db.prepare(
     `INSERT OR IGNORE INTO notifications (alert_id, rule_id, rule_name, channel, target, event_type, round, message_id, body, created_at, next_attempt_at)
@@ -178,6 +179,10 @@ export function createEscalationRepository(db: Db) {
     },
     disableRule(id: number, reason: string, at: number): void {
       disable.run({ id, reason, at });
+    },
+    /** Whether any rule is switched on: without one there is nothing to decide. */
+    anyEnabled(): boolean {
+      return (enabledRules.get() as { n: number }).n > 0;
     },
     due(now: number): { alertId: number; ruleId: number; round: number }[] {
       return due.all({ now }) as { alertId: number; ruleId: number; round: number }[];

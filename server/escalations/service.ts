@@ -162,6 +162,7 @@ export function createEscalationService(o: EscalationOptions) {
 
     /** Stores a notification for every rule whose time has come for an open alert, and a follow-up to each webhook that told of one since acknowledged or resolved. */
     sweep(): number {
+      if (!esc.anyEnabled()) return 0;
       const now = clock.now();
       return db.transaction(() => {
         let stored = 0;
