@@ -140,6 +140,7 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
     publicUrl: config.publicUrl ?? `http://${config.host}:${config.port}`,
     timeZone: config.timeZone,
     maxInFlight: config.webhookMaxInFlight,
+    onSent: (alertId) => monitor.alertChanged(alertId),
     log: (message, err) => app.log.error({ err }, message),
   });
   const calendar = createCalendarService({ db, clock, config, repos, monitor, calendarRepo: createCalendarRepository(db) });

@@ -30,6 +30,8 @@ export interface EscalationOptions {
   publicUrl: string;
   timeZone: string;
   maxInFlight: number;
+  /** Called after a notification about an alert was sent, so the boards can show who was told. */
+  onSent?: (alertId: number) => void;
   log: (message: string, err?: unknown) => void;
 }
 
@@ -107,6 +109,7 @@ export function createEscalationService(o: EscalationOptions) {
         repos.audit.record({ at: now, actor: 'heft', action: 'escalation.disable', entity: 'escalation', entityId: rule.id, after: { reason: '410 Gone' } });
       }
     }).immediate();
+    if (result.ok && (n.eventType === 'alert.opened' || n.eventType === 'alert.escalated')) o.onSent?.(n.alertId);
   }
 
   return {

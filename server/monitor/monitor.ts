@@ -370,6 +370,15 @@ export class Monitor {
     );
   }
 
+  /** Something outside the engine changed how an alert reads (escalation told someone): the boards hear of it. */
+  alertChanged(alertId: number): void {
+    const alert = this.repos.alerts.get(alertId);
+    if (!alert) return;
+    const now = this.clock.now();
+    const messages = this.db.transaction(() => this.record(now, [{ type: 'alert-updated', lineId: alert.lineId, alert: alertViewFrom(this.repos.alerts, alert) }])).immediate();
+    this.emit(messages, alert.lineId);
+  }
+
   private withMessage(updated: StoredAlert, now: number) {
     const view = alertViewFrom(this.repos.alerts, updated);
     return { updated, view, messages: this.record(now, [{ type: 'alert-updated', lineId: updated.lineId, alert: view }]) };

@@ -93,6 +93,9 @@ describe('escalation', () => {
     expect(() => new Webhook(`whsec_${Buffer.from('another secret of 24 b.').toString('base64')}`).verify(got?.body as string, headers)).toThrow();
     const detail = (await t.app.inject({ method: 'GET', url: `/api/alerts/${alertId}`, headers: { cookie: t.cookies.supervisor } })).json();
     expect(detail.notifications.map((n: { rule: string; channel: string; status: string; attempts: number }) => [n.rule, n.channel, n.status, n.attempts])).toEqual([['night supervisor', 'webhook', 'sent', 1]]);
+    // the boards hear at once who was told: a live alert-updated message carries it
+    const live = t.events.filter((e) => e.type === 'alert-updated' && 'alert' in e && (e.alert as { id: number }).id === alertId);
+    expect(live.map((e) => ('alert' in e ? (e.alert as { told?: { rule: string }[] }).told?.map((x) => x.rule) : null))).toEqual([['night supervisor']]);
     // the alert's own view (lists, the board's card) says who was told and when
     expect(detail.alert.told).toEqual([{ rule: 'night supervisor', channel: 'webhook', at: new Date(t.clock.now()).toISOString() }]);
     const listed = (await t.app.inject({ method: 'GET', url: '/api/alerts?state=open', headers: { cookie: t.cookies.supervisor } })).json().alerts;
