@@ -11,11 +11,11 @@ import type { LiveEvent, LiveEventBody } from '../live/messages.js';
 import type { LiveRepository } from '../live/repository.js';
 import type { Basis, ProductRepository } from '../products/repository.js';
 import { meanChartLimits, spreadChartLimits } from '../stats/control-limits.js';
-import { freshSegment } from '../stats/judge.js';
 import { AlertsService } from './alerts-service.js';
+import { AlertCommands } from './alert-commands.js';
 import { SamplingClock } from './sampling-clock.js';
 import { checkStep, type CheckInput, type CheckStep } from './check-step.js';
-import { alertKey, LineRuntimes, SEGMENT_MEMORY, type LineRuntime, type SegmentPoint } from './line-runtime.js';
+import { LineRuntimes, SEGMENT_MEMORY, type LineRuntime, type SegmentPoint } from './line-runtime.js';
 import type { MonitorStateRepository } from './state-repository.js';
 import type { AlertSummary, AlertView, CheckSignalView } from '../alerts/contract.js';
 import type { CheckView } from '../checks/contract.js';
@@ -88,6 +88,7 @@ export class Monitor {
   private readonly lines: LineRuntimes;
   private readonly alerts: AlertsService;
   private readonly sampling: SamplingClock;
+  private readonly alertCommands: AlertCommands;
   /** While a batch runs: the messages held back until its commit, and the lines it moved. */
   private batch: { messages: LiveEvent[]; lines: Set<number> } | null = null;
 
@@ -99,6 +100,15 @@ export class Monitor {
     this.publish = options.publish;
     this.lines = new LineRuntimes(options.repos);
     this.alerts = new AlertsService(options.repos.alerts, options.repos.audit);
+    this.alertCommands = new AlertCommands({
+      db: this.db,
+      clock: this.clock,
+      repos: this.repos,
+      lines: this.lines,
+      alerts: this.alerts,
+      record: (at, bodies) => this.record(at, bodies),
+      emit: (messages, lineId) => this.emit(messages, lineId),
+    });
     this.sampling = new SamplingClock({
       db: this.db,
       clock: this.clock,
@@ -341,70 +351,14 @@ export class Monitor {
     };
   }
 
-  // ---------------------------------------------------------------- alerts
+  // ---------------------------------------------------------------- alerts (alert-commands.ts)
 
-  acknowledge(alertId: number, note: string, actor: string): AlertView {
-    const now = this.clock.now();
-    return this.afterTransition(this.db.transaction(() => this.withMessage(this.alerts.acknowledge(alertId, note, actor, now).updated, now)).immediate());
-  }
-
+  acknowledge = (alertId: number, note: string, actor: string): AlertView => this.alertCommands.acknowledge(alertId, note, actor);
   /** Shelves an open alert for `minutes` (at most 8 h) with a reason. */
-  shelve(alertId: number, minutes: number, reason: string, actor: string): AlertView {
-    const now = this.clock.now();
-    return this.afterTransition(this.db.transaction(() => this.withMessage(this.alerts.shelve(alertId, now + minutes * 60_000, reason, actor, now), now)).immediate());
-  }
-
-  resolve(alertId: number, cause: string, action: string, actor: string): AlertView {
-    const now = this.clock.now();
-    return this.afterTransition(
-      this.db.transaction(() => {
-        const { updated } = this.alerts.resolve(alertId, cause, action, actor, now);
-        // A resolved shift means its cause was removed: the detectors start afresh on the next check,
-        // or they would signal again at once on evidence from before the fix.
-        const runtime = this.lines.peek(updated.lineId);
-        if (updated.kind === 'mean-shift' && runtime?.run && runtime.run.id === updated.runId && runtime.model) {
-          this.repos.monitorState.save({ lineId: updated.lineId, runId: runtime.run.id, limitsKey: runtime.limitsKey, segmentStartCheckId: null, segment: freshSegment(), previous: null }, now);
-        }
-        return this.withMessage(updated, now);
-      }).immediate(),
-    );
-  }
-
+  shelve = (alertId: number, minutes: number, reason: string, actor: string): AlertView => this.alertCommands.shelve(alertId, minutes, reason, actor);
+  resolve = (alertId: number, cause: string, action: string, actor: string): AlertView => this.alertCommands.resolve(alertId, cause, action, actor);
   /** Something outside the engine changed how an alert reads (escalation told someone): the boards hear of it. */
-  alertChanged(alertId: number): void {
-    const alert = this.repos.alerts.get(alertId);
-    if (!alert) return;
-    const now = this.clock.now();
-    const messages = this.db.transaction(() => this.record(now, [{ type: 'alert-updated', lineId: alert.lineId, alert: alertViewFrom(this.repos.alerts, alert) }])).immediate();
-    this.emit(messages, alert.lineId);
-  }
-
-  private withMessage(updated: StoredAlert, now: number) {
-    const view = alertViewFrom(this.repos.alerts, updated);
-    return { updated, view, messages: this.record(now, [{ type: 'alert-updated', lineId: updated.lineId, alert: view }]) };
-  }
-
-  /** Committed: the line's open alerts follow, and a resolved mean shift restarts the detectors. */
-  private afterTransition(outcome: { updated: StoredAlert; view: AlertView; messages: LiveEvent[] }): AlertView {
-    const next = outcome.updated;
-    const runtime = this.lines.peek(next.lineId);
-    if (runtime) {
-      const key = alertKey(next.kind, next.direction);
-      if (next.state !== 'resolved') {
-        if (runtime.openAlerts.get(key)?.id === next.id) runtime.openAlerts.set(key, next);
-      } else {
-        if (runtime.openAlerts.get(key)?.id === next.id) runtime.openAlerts.delete(key);
-        if (next.kind === 'mean-shift' && runtime.run?.id === next.runId && runtime.model) {
-          runtime.segment = freshSegment();
-          runtime.segmentStartCheckId = null;
-          runtime.points = [];
-          runtime.previous = null;
-        }
-      }
-    }
-    this.emit(outcome.messages, next.lineId);
-    return outcome.view;
-  }
+  alertChanged = (alertId: number): void => this.alertCommands.alertChanged(alertId);
 
   // ---------------------------------------------------------------- the sampling clock (sampling-clock.ts)
 
