@@ -9,7 +9,8 @@ import { alertKey, type LineRuntimes } from './line-runtime.js';
 import type { Repositories } from './monitor.js';
 import { alertViewFrom } from './views.js';
 
-export interface AlertCommandDeps {
+/** The engine's parts its command rooms share: storage, the clock, the lines in memory, the alert episodes, and the live messages. */
+export interface EngineParts {
   db: Db;
   clock: Clock;
   repos: Repositories;
@@ -23,7 +24,7 @@ export interface AlertCommandDeps {
 
 /** What a person does to an alert — acknowledge, shelve, resolve — each in one transaction, with its live message after the commit. */
 export class AlertCommands {
-  constructor(private readonly d: AlertCommandDeps) {}
+  constructor(private readonly d: EngineParts) {}
 
   acknowledge(alertId: number, note: string, actor: string): AlertView {
     const now = this.d.clock.now();

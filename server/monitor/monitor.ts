@@ -100,25 +100,17 @@ export class Monitor {
     this.publish = options.publish;
     this.lines = new LineRuntimes(options.repos);
     this.alerts = new AlertsService(options.repos.alerts, options.repos.audit);
-    this.alertCommands = new AlertCommands({
+    const parts = {
       db: this.db,
       clock: this.clock,
       repos: this.repos,
       lines: this.lines,
       alerts: this.alerts,
-      record: (at, bodies) => this.record(at, bodies),
-      emit: (messages, lineId) => this.emit(messages, lineId),
-    });
-    this.sampling = new SamplingClock({
-      db: this.db,
-      clock: this.clock,
-      repos: this.repos,
-      lines: this.lines,
-      alerts: this.alerts,
-      graceMs: this.graceMs,
-      record: (at, bodies) => this.record(at, bodies),
-      emit: (messages, lineId) => this.emit(messages, lineId),
-    });
+      record: (at: number, bodies: LiveEventBody[]) => this.record(at, bodies),
+      emit: (messages: LiveEvent[], lineId: number) => this.emit(messages, lineId),
+    };
+    this.alertCommands = new AlertCommands(parts);
+    this.sampling = new SamplingClock({ ...parts, graceMs: this.graceMs });
   }
 
   /** Sends committed messages, or holds them until the batch they belong to has committed. */

@@ -1,25 +1,12 @@
 import type { AlertView } from '../alerts/contract.js';
-import type { Clock } from '../clock.js';
-import type { Db } from '../db/database.js';
 import { conflict } from '../errors.js';
 import type { LineStop, StopReason } from '../lines/stops-repository.js';
-import type { LiveEvent, LiveEventBody } from '../live/messages.js';
-import type { AlertsService } from './alerts-service.js';
-import { alertKey, type LineRuntime, type LineRuntimes } from './line-runtime.js';
-import type { Repositories } from './monitor.js';
+import type { EngineParts } from './alert-commands.js';
+import { alertKey, type LineRuntime } from './line-runtime.js';
 import { alertView, alertViewFrom } from './views.js';
 
-export interface SamplingClockDeps {
-  db: Db;
-  clock: Clock;
-  repos: Repositories;
-  lines: LineRuntimes;
-  alerts: AlertsService;
+export interface SamplingClockDeps extends EngineParts {
   graceMs: number;
-  /** Numbers and stores live messages inside the caller's transaction. */
-  record: (at: number, bodies: LiveEventBody[]) => LiveEvent[];
-  /** Sends committed messages (or holds them for the batch they belong to). */
-  emit: (messages: LiveEvent[], lineId: number) => void;
 }
 
 /**
