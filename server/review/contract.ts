@@ -1,3 +1,4 @@
+import { STOP_REASONS } from '../lines/stops-repository.js';
 import { z } from 'zod';
 import { alertViewSchema } from '../alerts/contract.js';
 import { productViewSchema } from '../products/contract.js';
@@ -98,7 +99,7 @@ export const lineSectionSchema = z.strictObject({
   running: z.strictObject({
     hoursRunning: z.number(),
     hoursStopped: z.number(),
-    stopped: z.array(z.strictObject({ reason: z.enum(['break', 'cleaning', 'changeover', 'no-orders', 'breakdown', 'other']), stops: z.number(), hours: z.number() })),
+    stopped: z.array(z.strictObject({ reason: z.enum(STOP_REASONS), stops: z.number(), hours: z.number() })),
   }),
   sampling: z.strictObject({ checksTaken: z.number(), checksDue: z.number(), kept: z.boolean() }),
   events: z.array(reviewEventSchema),

@@ -1,3 +1,4 @@
+import { STOP_REASONS } from '../lines/stops-repository.js';
 import { z } from 'zod';
 
 /**
@@ -54,7 +55,7 @@ export const errorBody = z.object({
 
 /** Why and since when a line stands still, and who stopped it. */
 export const lineStopSchema = z.strictObject({
-  reason: z.enum(['break', 'cleaning', 'changeover', 'no-orders', 'breakdown', 'other']),
+  reason: z.enum(STOP_REASONS),
   note: z.string().nullable(),
   since: instant,
   by: z.string(),
