@@ -5,7 +5,9 @@ import type { Config } from '../server/config.js';
 import type { Db } from '../server/db/database.js';
 import type { AlertSummary } from '../server/alerts/contract.js';
 import { mulberry32, normalGenerator } from '../server/stats/random.js';
-import { DEMO_SEED, DEMO_USERS, HISTORY_DAYS, INCIDENTS, LINES, PEOPLE, PRODUCTS, type DemoProduct } from './scenario.js';
+import { shiftAt } from '../server/calendar/schedule.js';
+import { localParts } from '../server/shared/time-zone.js';
+import { CALENDAR, DEMO_SEED, DEMO_USERS, HISTORY_DAYS, INCIDENTS, LINES, PEOPLE, PRODUCTS, type DemoProduct } from './scenario.js';
 
 const HOUR = 3_600_000;
 
@@ -95,9 +97,17 @@ export async function generateDemo(options: GenerateOptions): Promise<GenerateSu
   }
   const lineIds = new Map<string, number>();
   for (const l of LINES) {
-    const body = await call(app, admin, 'POST', '/api/lines', { code: l.code, name: l.name, packsPerHour: l.packsPerHour });
+    const body = await call(app, admin, 'POST', '/api/lines', { code: l.code, name: l.name, packsPerHour: l.packsPerHour, continuous: l.continuous });
     lineIds.set(l.code, (body.line as { id: number }).id);
   }
+  await call(app, admin, 'PUT', '/api/calendar', CALENDAR);
+  const calendar = { shifts: CALENDAR.shifts, closedDays: CALENDAR.closedDays.map((d) => d.date) };
+  const timeZone = options.config.timeZone;
+  const inShift = (at: number) => shiftAt(calendar, at, timeZone) !== null;
+  // the rice line's changeover falls on a working day's late shift, whatever weekday the history starts on
+  const spreadSpec = INCIDENTS.spreadAfterChangeover;
+  let spreadAtHour = spreadSpec.fromDay * 24;
+  while (!(inShift(startAt + spreadAtHour * HOUR) && localParts(startAt + spreadAtHour * HOUR, timeZone).hour === spreadSpec.localHour)) spreadAtHour += 1;
   clock.set(startAt - 30 * 60_000);
   for (const l of LINES) monitor.changeover(lineIds.get(l.code) as number, productIds.get(l.product) as number, 'pat.quillan');
 
@@ -113,7 +123,7 @@ export async function generateDemo(options: GenerateOptions): Promise<GenerateSu
     const { stepShift, drift, spreadAfterChangeover, packBelowT2 } = INCIDENTS;
     if (lineCode === stepShift.line && hour >= stepShift.fromHour && !fixedAt.has('stepShift')) return 'stepShift';
     if (lineCode === drift.line && hour >= drift.fromHour && !fixedAt.has('drift')) return 'drift';
-    if (lineCode === spreadAfterChangeover.line && hour >= spreadAfterChangeover.atHour && !fixedAt.has('spreadAfterChangeover')) return 'spreadAfterChangeover';
+    if (lineCode === spreadAfterChangeover.line && hour >= spreadAtHour && !fixedAt.has('spreadAfterChangeover')) return 'spreadAfterChangeover';
     if (lineCode === packBelowT2.line && hour === packBelowT2.hour) return 'packBelowT2';
     return null;
   };
@@ -173,6 +183,10 @@ export async function generateDemo(options: GenerateOptions): Promise<GenerateSu
 
   const hours = HISTORY_DAYS * 24;
   for (let hour = 0; hour < hours; hour += 1) {
+    // the calendar stops the rice line at the end of the late shift and starts it with the early one
+    runPending(startAt + hour * HOUR);
+    clock.set(Math.max(clock.now(), startAt + hour * HOUR));
+    app.heft.calendar.sweep();
     for (const [index, l] of LINES.entries()) {
       const at = startAt + hour * HOUR + (5 + index * 15 + Math.floor(uniform() * 6)) * 60_000;
       runPending(at);
@@ -180,7 +194,7 @@ export async function generateDemo(options: GenerateOptions): Promise<GenerateSu
       monitor.sweepOverdue();
       const lineId = lineIds.get(l.code) as number;
       const spread = INCIDENTS.spreadAfterChangeover;
-      if (l.code === spread.line && hour === spread.atHour && running.get(l.code) !== spread.product) {
+      if (l.code === spread.line && hour === spreadAtHour && running.get(l.code) !== spread.product) {
         monitor.changeover(lineId, productIds.get(spread.product) as number, supervisorFor(at));
         running.set(l.code, spread.product);
         // the line is cleaned after the changeover: stopped for 40 minutes, so this hour's check is not taken
@@ -189,6 +203,7 @@ export async function generateDemo(options: GenerateOptions): Promise<GenerateSu
         continue;
       }
       if (l.code === INCIDENTS.missedCheck.line && INCIDENTS.missedCheck.hours.includes(hour)) continue;
+      if (monitor.lineState(lineId).stop) continue; // nothing is made, so nothing is weighed
       if (hour === 48 && l.code === 'L1') {
         const quality = await signIn(app, 'quality', 'quality-demo-3333');
         await call(app, quality, 'POST', `/api/lines/${lineId}/limits`, {

@@ -28,8 +28,10 @@ export function startSimulator(options: SimulatorOptions): { stop: () => void; o
 
   const postFor = async (lineId: number) => {
     const line = app.heft.repos.lines.get(lineId);
-    const product = line ? app.heft.monitor.lineState(lineId).product : null;
-    if (!product) return;
+    const state = line ? app.heft.monitor.lineState(lineId) : null;
+    const product = state?.product ?? null;
+    // a stopped line (a break, cleaning, between the calendar's shifts) makes nothing to weigh
+    if (!product || state?.stop) return;
     let shift = shifts.get(lineId);
     if (!shift && uniform() < 0.03) shift = { sigma: (uniform() < 0.5 ? -1 : 1) * (1.5 + uniform() * 1.5), left: 6 + Math.floor(uniform() * 6) };
     const sigma = product.sigma ?? product.nominal * 0.004;

@@ -40,8 +40,8 @@ export function createCalendarService(ctx: Pick<HeftContext, 'db' | 'clock' | 'c
         const state = monitor.lineState(line.id);
         if (!state.run) continue;
         if (!working && !state.stop) {
-          const note = calendar.closedDays.includes(today) ? 'a planned non-working day (plant calendar)' : 'between shifts (plant calendar)';
-          monitor.stopLine(line.id, 'other', note, CALENDAR_ACTOR);
+          const note = calendar.closedDays.includes(today) ? 'a planned non-working day' : null;
+          monitor.stopLine(line.id, 'off-shift', note, CALENDAR_ACTOR);
           out.stopped.push(line.id);
         } else if (working && state.stop?.stoppedBy === CALENDAR_ACTOR) {
           monitor.startLine(line.id, CALENDAR_ACTOR);

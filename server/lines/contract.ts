@@ -1,7 +1,7 @@
 import { z } from 'zod';
 import { productViewSchema } from '../products/contract.js';
 import { instantOrNull, lineStatus, lineStopSchema } from '../shared/contract.js';
-import { STOP_REASONS } from './stops-repository.js';
+import { PERSON_STOP_REASONS } from './stops-repository.js';
 import { code, freeText, idParam } from '../shared/schemas.js';
 
 /** What the lines routes take and answer. */
@@ -17,7 +17,7 @@ export const linePatch = lineBody.partial();
 export const lineParams = z.strictObject({ lineId: idParam });
 export const changeoverBody = z.strictObject({ productId: idParam });
 export const stopBody = z.strictObject({
-  reason: z.enum(STOP_REASONS, { error: `one of ${STOP_REASONS.join(', ')}` }),
+  reason: z.enum(PERSON_STOP_REASONS, { error: `one of ${PERSON_STOP_REASONS.join(', ')}` }),
   note: freeText(200).optional(),
 });
 

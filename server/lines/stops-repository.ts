@@ -1,7 +1,9 @@
 import type { Db } from '../db/database.js';
 
-/** Why a line stands still: the short list a person picks from, with free text beside it. */
-export const STOP_REASONS = ['break', 'cleaning', 'changeover', 'no-orders', 'breakdown', 'other'] as const;
+/** Why a person stops a line: the short list they pick from, with free text beside it. */
+export const PERSON_STOP_REASONS = ['break', 'cleaning', 'changeover', 'no-orders', 'breakdown', 'other'] as const;
+/** Every reason a stop can carry: a person's, or the plant calendar's own between its shifts. */
+export const STOP_REASONS = [...PERSON_STOP_REASONS, 'off-shift'] as const;
 export type StopReason = (typeof STOP_REASONS)[number];
 
 export interface LineStop {

@@ -5,7 +5,7 @@ import type { Line } from '../lines/repository.js';
 import { falseAlarmFigure } from '../monitor/false-alarm-cache.js';
 import { alertViewFrom } from '../monitor/views.js';
 import type { LimitsVersion } from '../limits/repository.js';
-import type { StopReason } from '../lines/stops-repository.js';
+import { STOP_REASONS, type StopReason } from '../lines/stops-repository.js';
 import type { Product, ProductVersion } from '../products/repository.js';
 import { capability, capabilityFromSources, sigmaDegreesOfFreedom, varianceOfMeanFromChecks, type SigmaUncertainty } from '../stats/capability.js';
 import { estimateSigma, defaultSigmaMethod } from '../stats/control-limits.js';
@@ -54,7 +54,8 @@ function stoppedByReason(ctx: HeftContext, lineId: number, from: number, to: num
     entry.hours += overlap(from, end, s.stoppedAt, s.startedAt ?? now) / 3_600_000;
     byReason.set(s.reason, entry);
   }
-  return [...byReason.values()];
+  // in the list's own order (a person's reasons, then the calendar's), not in the order they happened
+  return [...byReason.values()].sort((a, b) => STOP_REASONS.indexOf(a.reason) - STOP_REASONS.indexOf(b.reason));
 }
 
 function unstableAt(alerts: StoredAlert[], to: number): StoredAlert[] {

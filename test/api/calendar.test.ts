@@ -26,7 +26,7 @@ describe('the plant calendar on the lines', () => {
     t.clock.advance(MINUTE); // 22:00
     expect(t.app.heft.calendar.sweep()).toEqual({ stopped: [lineId], started: [] });
     const stopped = await lineOf(t, lineId);
-    expect([stopped.running, stopped.stop.reason, stopped.stop.note, stopped.stop.by]).toEqual([false, 'other', 'between shifts (plant calendar)', CALENDAR_ACTOR]);
+    expect([stopped.running, stopped.stop.reason, stopped.stop.note, stopped.stop.by]).toEqual([false, 'off-shift', null, CALENDAR_ACTOR]);
     expect(t.app.heft.repos.alerts.unresolved().filter((a) => a.kind === 'check-overdue')).toEqual([]);
     for (let i = 0; i < 8; i += 1) {
       t.clock.advance(HOUR);
@@ -67,6 +67,6 @@ describe('the plant calendar on the lines', () => {
     await putCalendar(t, { ...TWO_SHIFTS, closedDays: [{ date: '2026-03-03', note: 'stocktake' }] });
     t.clock.advance(24 * HOUR + 2 * HOUR); // Tuesday 08:00
     expect(t.app.heft.calendar.sweep().stopped).toEqual([lineId]);
-    expect((await lineOf(t, lineId)).stop.note).toBe('a planned non-working day (plant calendar)');
+    expect((await lineOf(t, lineId)).stop.note).toBe('a planned non-working day');
   });
 });

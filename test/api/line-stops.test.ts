@@ -53,6 +53,9 @@ describe('a line that stands still', () => {
     const bad = await stop(t, lineId, { reason: 'lunch' });
     expect(bad.statusCode).toBe(400);
     expect(bad.json().issues[0].field).toBe('reason');
+    // "off-shift" is the plant calendar's own reason: a person cannot give it
+    const calendars = await stop(t, lineId, { reason: 'off-shift' });
+    expect([calendars.statusCode, calendars.json().issues[0].field]).toEqual([400, 'reason']);
     const long = await stop(t, lineId, { reason: 'other', note: 'x'.repeat(201) });
     expect(long.json().issues[0].field).toBe('note');
     expect(countRows(t.db, 'line_stops')).toBe(0);
@@ -106,9 +109,10 @@ describe('a line that stands still', () => {
     const line = (await t.app.inject({ method: 'GET', url: `/api/review?from=${new Date(from).toISOString()}&to=${new Date(to).toISOString()}`, headers: { cookie: t.cookies.quality } })).json().review.lines[0];
     expect(line.running.hoursRunning).toBeCloseTo(3.5, 10);
     expect(line.running.hoursStopped).toBeCloseTo(4.5, 10);
+    // in the order of the reasons' list (break before cleaning), though the cleaning came first
     expect(line.running.stopped.map((s: { reason: string; stops: number; hours: number }) => [s.reason, s.stops, s.hours])).toEqual([
-      ['cleaning', 2, 4],
       ['break', 1, 0.5],
+      ['cleaning', 2, 4],
     ]);
     expect(line.sampling.checksDue).toBe(3); // ⌊3.5 h running / 60 min⌋, not ⌊8 h / 60 min⌋
   });

@@ -1,4 +1,4 @@
-import { cpSync, mkdtempSync, readdirSync, writeFileSync, appendFileSync } from 'node:fs';
+import { appendFileSync, cpSync, mkdtempSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
@@ -45,6 +45,30 @@ describe('migrations', () => {
     expect(() => migrate(db, copy)).toThrow(/migration 900_broken\.sql failed, so the database was left as it was before it: .*syntax error/);
     expect(db.prepare("SELECT name FROM sqlite_master WHERE name = 'half_done'").get()).toBeUndefined();
     expect(db.prepare('SELECT COUNT(*) AS n FROM schema_migrations WHERE version = 900').get()).toEqual({ n: 0 });
+    db.close();
+    removeDir(dir);
+  });
+
+  it('when a database with the calendar’s stops of migration 013 is upgraded, then those stops read "off-shift" and a person’s stay as they were', () => {
+    const dir = mkdtempSync(join(tmpdir(), 'heft-mig-'));
+    const upTo014 = join(dir, 'migrations');
+    cpSync(MIGRATIONS_DIR, upTo014, { recursive: true });
+    for (const f of readdirSync(upTo014).filter((name) => name >= '015')) rmSync(join(upTo014, f));
+    const db = openDatabase(join(dir, 'd.db'));
+    migrate(db, upTo014);
+    db.prepare("INSERT INTO lines (code, name, created_at, updated_at) VALUES ('L1', 'Line 1', 0, 0)").run();
+    const stop = db.prepare('INSERT INTO line_stops (line_id, reason, note, stopped_at, stopped_by, started_at, started_by) VALUES (1, ?, ?, ?, ?, ?, ?)');
+    stop.run('other', 'between shifts (plant calendar)', 0, 'plant calendar', 10, 'plant calendar');
+    stop.run('other', 'forklift in the way', 20, 'pat.quillan', 30, 'pat.quillan');
+    stop.run('cleaning', null, 40, 'plant calendar', null, null);
+    expect(migrate(db).applied).toEqual(readdirSync(MIGRATIONS_DIR).filter((name) => name >= '015' && name.endsWith('.sql')).sort());
+    expect(db.prepare('SELECT reason, stopped_by AS by FROM line_stops ORDER BY id').all()).toEqual([
+      { reason: 'off-shift', by: 'plant calendar' },
+      { reason: 'other', by: 'pat.quillan' },
+      { reason: 'cleaning', by: 'plant calendar' },
+    ]);
+    // the rebuilt table keeps its rule of one open stop per line
+    expect(() => stop.run('break', null, 50, 'x', null, null)).toThrow(/UNIQUE/);
     db.close();
     removeDir(dir);
   });

@@ -170,14 +170,14 @@ describe.skipIf(!HAVE_CHROMIUM)('the wall board', () => {
   it('when a line is stopped, then its tile says why and since when, at once, instead of when its next check is due', async () => {
     const supervisor = await app.inject({ method: 'POST', url: '/api/session', payload: { username: 'supervisor', secret: '2222' } });
     const cookie = String(supervisor.headers['set-cookie']).split(';')[0] as string;
-    const res = await app.inject({ method: 'POST', url: '/api/lines/3/stop', headers: { cookie }, payload: { reason: 'cleaning' } });
+    const res = await app.inject({ method: 'POST', url: '/api/lines/2/stop', headers: { cookie }, payload: { reason: 'cleaning' } });
     expect(res.statusCode).toBe(200);
-    const tile = wallPage.locator('.tile[data-line="3"] [data-stopped]');
+    const tile = wallPage.locator('.tile[data-line="2"] [data-stopped]');
     await tile.waitFor({ timeout: 2000 });
     expect(await tile.innerText()).toMatch(/^stopped — cleaning, since \d\d:\d\d$/);
-    expect(await wallPage.locator('.tile[data-line="3"] [data-due]').count()).toBe(0);
+    expect(await wallPage.locator('.tile[data-line="2"] [data-due]').count()).toBe(0);
     await wallPage.screenshot({ path: `${ARTIFACTS}board-stopped.png` });
-    await app.inject({ method: 'POST', url: '/api/lines/3/start', headers: { cookie } });
-    await wallPage.locator('.tile[data-line="3"] [data-due]').waitFor({ timeout: 2000 });
+    await app.inject({ method: 'POST', url: '/api/lines/2/start', headers: { cookie } });
+    await wallPage.locator('.tile[data-line="2"] [data-due]').waitFor({ timeout: 2000 });
   });
 });

@@ -86,8 +86,9 @@ describe.skipIf(!HAVE_CHROMIUM)('the quality manager’s review', () => {
     // the intervals say where σ came from: a baseline with its ν, or a configured σ taken as known
     expect(onScreen).toMatch(/σ from the baseline with ν ≈ \d+ \(Patnaik\)/);
     expect(onScreen).toMatch(/σ configured, taken as known: only the mean is uncertain/);
-    // the demo's line 3 was cleaned for 40 minutes after its changeover, and one alert was shelved with a reason
-    expect(onScreen).toMatch(/0\.7 h stopped \(cleaning 0\.7 h\)/);
+    // the demo's line 3 was cleaned for 40 minutes after its changeover and works the calendar's shifts
+    // (nights and the weekend off); one alert was shelved with a reason
+    expect(onScreen).toMatch(/h stopped \(cleaning 0\.7 h, off shift \d+\.\d h\)/);
     expect(onScreen).toMatch(/shelved 1× by [a-z.]+: known: film reel being changed on this line/);
     // the alarm-load figures per line
     expect(onScreen).toMatch(/10-minute windows in flood \(more than 10 new alerts\)\s+0\.00 %/);

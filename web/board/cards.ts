@@ -68,7 +68,8 @@ export function renderRunControls(box: HTMLElement, lineId: number, stop: LineSt
     box.replaceChildren(words, start);
     return;
   }
-  const reason = el('select', { id: 'board-stop-reason' }, ...Object.entries(STOP_REASON_WORDS).map(([value, text]) => el('option', { value }, text)));
+  // off shift is the calendar's own reason, not one a person picks
+  const reason = el('select', { id: 'board-stop-reason' }, ...Object.entries(STOP_REASON_WORDS).filter(([value]) => value !== 'off-shift').map(([value, text]) => el('option', { value }, text)));
   const stopButton = el('button', { type: 'button' }, 'Stop line');
   stopButton.addEventListener('click', () => void send('stop', { reason: reason.value }));
   box.replaceChildren(words, el('label', { for: 'board-stop-reason' }, 'Reason'), reason, stopButton);

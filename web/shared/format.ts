@@ -51,6 +51,7 @@ export const STOP_REASON_WORDS: Record<string, string> = {
   'no-orders': 'no orders',
   breakdown: 'breakdown',
   other: 'other',
+  'off-shift': 'off shift',
 };
 
 /** "stopped — cleaning, since 14:05" (with the note after it when there is one). */
