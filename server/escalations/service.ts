@@ -59,8 +59,10 @@ export function createEscalationService(o: EscalationOptions) {
     const unit = (run && repos.products.get(run.productId)?.unit) ?? '';
     const size = a.size ? `${a.size.unit > 0 ? '+' : ''}${a.size.unit.toPrecision(3)} ${unit}${a.size.sigma === null ? '' : ` (${a.size.sigma.toFixed(1)}σ of one pack)`}` : 'not measured';
     const link = `${o.publicUrl.replace(/\/$/, '')}/board?line=${l.id}`;
+    const openMinutes = Math.round((n.createdAt - Date.parse(a.openedAt)) / 60_000);
+    const standing = body.type === 'alert.opened' ? 'just raised' : a.state === 'open' ? `not acknowledged after ${openMinutes} min` : `now ${a.state}`;
     const lines = [
-      `${a.severity === 'act' ? 'Act' : 'Watch'}: ${what} on ${l.code} ${l.name}, still ${a.state === 'open' ? 'not acknowledged' : a.state}.`,
+      `${a.severity === 'act' ? 'Act' : 'Watch'}: ${what} on ${l.code} ${l.name}, ${standing}.`,
       '',
       `Line: ${l.code} ${l.name}`,
       `Alert: ${what} (${a.severity}), alert ${a.id}`,

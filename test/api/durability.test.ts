@@ -1,16 +1,10 @@
-import { BUILT_SERVER } from '../build-server.js';
-import { spawn, type ChildProcess } from 'node:child_process';
 import { randomUUID } from 'node:crypto';
 import { mkdtempSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { createAuthRepository } from '../../server/auth/repository.js';
-import { createAuthService } from '../../server/auth/service.js';
-import { createAuditRepository } from '../../server/audit/repository.js';
-import { systemClock } from '../../server/clock.js';
 import { openDatabase } from '../../server/db/database.js';
-import { migrate } from '../../server/db/migrate.js';
+import { prepareLineDatabase, startBuiltServer } from '../child-server.js';
 import { removeDir } from '../helpers.js';
 import { spreadChartLimits, standardisedMean } from '../../server/stats/control-limits.js';
 import { freshSegment, judgePoint } from '../../server/stats/judge.js';
@@ -18,53 +12,11 @@ import { resolveRuleSet } from '../../server/stats/rule-set.js';
 import { summarizeSample } from '../../server/stats/sample-summary.js';
 import { mulberry32 } from '../../server/stats/random.js';
 
-const ROOT = new URL('../../', import.meta.url).pathname;
-
-/** A database with one line running one product and a checks token, made before any server runs. */
-function prepare(file: string): string {
-  const db = openDatabase(file);
-  migrate(db);
-  const now = Date.now() - 60_000;
-  db.prepare("INSERT INTO lines (code, name, created_at, updated_at) VALUES ('L1', 'Line 1', ?, ?)").run(now, now);
-  db.prepare(
-    `INSERT INTO products (code, name, nominal, unit, target, subgroup_size, sampling_minutes, sigma, created_at, updated_at)
-     VALUES ('P', 'Bag', 500, 'g', 503, 5, 60, 2, ?, ?)`,
-  ).run(now, now);
-  db.prepare('INSERT INTO runs (line_id, product_id, started_at) VALUES (1, 1, ?)').run(now);
-  const auth = createAuthService({ db, clock: systemClock, repo: createAuthRepository(db), audit: createAuditRepository(db), sessionIdleMs: 1e9, sessionMaxMs: 1e9 });
-  const { token } = auth.createToken({ name: 'scale', kind: 'checks', lineIds: [1] }, 'test');
-  db.close();
-  return token;
-}
-
-function startServer(file: string, port: number): Promise<ChildProcess> {
-  return new Promise((resolve, reject) => {
-    const child = spawn(process.execPath, [BUILT_SERVER, '--db', file, '--port', String(port), '--log-level', 'silent'], {
-      cwd: ROOT,
-      stdio: ['ignore', 'pipe', 'pipe'],
-    });
-    let out = '';
-    const timer = setTimeout(() => reject(new Error(`server did not start: ${out}`)), 20_000);
-    child.stdout?.on('data', (d: Buffer) => {
-      out += d.toString();
-      if (out.includes('Heft at')) {
-        clearTimeout(timer);
-        resolve(child);
-      }
-    });
-    child.stderr?.on('data', (d: Buffer) => (out += d.toString()));
-    child.on('exit', (code) => {
-      clearTimeout(timer);
-      if (!out.includes('Heft at')) reject(new Error(`server exited ${code}: ${out}`));
-    });
-  });
-}
-
 describe('durability under kill -9', () => {
   it('when the server is killed 20 times at random points during ingest, then every acknowledged check survives, the file is intact, and the statistics equal a recompute', async () => {
     const dir = mkdtempSync(join(tmpdir(), 'heft-kill-'));
     const file = join(dir, 'heft.db');
-    const token = prepare(file);
+    const token = prepareLineDatabase(file);
     // seeded, so a failing run can be repeated: the port and every kill time come from it
     const seed = 20261202;
     const uniform = mulberry32(seed);
@@ -74,7 +26,7 @@ describe('durability under kill -9', () => {
     const attempted = new Set<string>();
     const rounds = 20;
     for (let round = 0; round < rounds; round += 1) {
-      const server = await startServer(file, port);
+      const server = await startBuiltServer(file, port);
       let alive = true;
       const exited = new Promise<void>((r) => server.on('exit', () => r()));
       const killAfter = 100 + Math.floor(uniform() * 300);

@@ -192,8 +192,18 @@ describe('escalation', () => {
     for (const line of ['Line: L1 Line L1', `Alert: mean shift up (act), alert ${alertId}`, 'Rules: beyond 3σ', 'Size: +12.0 g (6.0σ of one pack)', 'Began about:', `Open it: https://heft.plant.example/board?line=${lineId}`]) expect(text).toContain(line);
     expect(mail.html).toContain('<a href="https://heft.plant.example/board?line=');
     expect(text).not.toMatch(/whsec_|password|secret/i);
+    expect(text.split('\n')[0]).toBe('Act: mean shift up on L1 Line L1, just raised.');
     const detail = (await t.app.inject({ method: 'GET', url: `/api/alerts/${alertId}`, headers: { cookie: t.cookies.supervisor } })).json();
     expect(detail.notifications[0]).toMatchObject({ rule: 'night supervisor', channel: 'email', to: 'night.supervisor@plant.example', status: 'sent' });
+    // the next level's message says how long the alert has stood unacknowledged
+    await rule(t, { name: 'quality manager', channel: 'email', to: 'quality@plant.example', severity: 'act', afterMinutes: 30 });
+    t.clock.advance(30 * MINUTE);
+    t.app.heft.escalations.sweep();
+    await t.app.heft.escalations.deliverDue();
+    expect(smtp.mails.map((m) => [m.to && 'text' in m.to ? m.to.text : '', (m.text ?? '').split('\n')[0]])).toEqual([
+      ['night.supervisor@plant.example', 'Act: mean shift up on L1 Line L1, just raised.'],
+      ['quality@plant.example', 'Act: mean shift up on L1 Line L1, not acknowledged after 30 min.'],
+    ]);
   });
 
   heftTest('when the server stops between storing a delivery and sending it, then the next start sends it exactly once, with the stored id', async ({ heft: first }) => {
