@@ -32,6 +32,10 @@ import { DailyBackups } from './db/daily-backups.js';
 import { pruneOnce } from './db/housekeeping.js';
 import { createCalendarRepository } from './calendar/repository.js';
 import { calendarPlugin } from './calendar/routes.js';
+import { scalesPlugin } from './scales/routes.js';
+import { checkweigherPlugin } from './checkweigher/routes.js';
+import { createCheckweigherRepository } from './checkweigher/repository.js';
+import { createCheckweigherService } from './checkweigher/service.js';
 import { createCalendarService } from './calendar/service.js';
 import { networkDeliverers, type Deliverers } from './escalations/delivery.js';
 import { createEscalationRepository } from './escalations/repository.js';
@@ -144,7 +148,18 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
     log: (message, err) => app.log.error({ err }, message),
   });
   const calendar = createCalendarService({ db, clock, config, repos, monitor, calendarRepo: createCalendarRepository(db) });
-  const ctx: HeftContext = { db, clock, config, repos, monitor, commits: new GroupCommitter(monitor), auth, escalations, calendar };
+  const commits = new GroupCommitter(monitor);
+  const checkweigherService = createCheckweigherService({ db, clock, repos, monitor, packs: createCheckweigherRepository(db) });
+  const checkweigher = {
+    ...checkweigherService,
+    /** Judges, with what they have, the partial checks whose first pack is a sampling interval old. */
+    async flushStale(): Promise<number> {
+      const stale = checkweigherService.linesWithStalePacks();
+      await Promise.all(stale.map((lineId) => commits.submit(() => checkweigherService.flushPartial(lineId))));
+      return stale.length;
+    },
+  };
+  const ctx: HeftContext = { db, clock, config, repos, monitor, commits, auth, escalations, calendar, checkweigher };
   app.decorate('heft', ctx);
   const hub = new LiveHub({ live: repos.live, now: () => clock.now() });
   listeners.push((events) => hub.publish(events));
@@ -193,6 +208,8 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
   await app.register(exportsPlugin, { ctx });
   await app.register(escalationsPlugin, { ctx });
   await app.register(calendarPlugin, { ctx });
+  await app.register(scalesPlugin, { ctx });
+  await app.register(checkweigherPlugin, { ctx });
   await app.register(livePlugin, { ctx, hub });
   await app.register(webPlugin);
 
@@ -234,6 +251,7 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
       } catch (err) {
         app.log.error({ err }, 'overdue sweep failed');
       }
+      checkweigher.flushStale().catch((err) => app.log.error({ err }, 'forming partial checks failed'));
       escalateSoon();
       // every ten minutes: live messages past the resume window and sessions no one can use any more
       sweeps += 1;

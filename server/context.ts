@@ -1,6 +1,7 @@
 import type { AuthService } from './auth/service.js';
 import type { AuthRepository } from './auth/repository.js';
 import type { CalendarService } from './calendar/service.js';
+import type { CheckweigherService } from './checkweigher/service.js';
 import type { Clock } from './clock.js';
 import type { Config } from './config.js';
 import type { Db } from './db/database.js';
@@ -23,4 +24,6 @@ export interface HeftContext {
   escalations: EscalationService;
   /** Stops and starts lines at the plant's shift boundaries; tests call sweep() by hand. */
   calendar: CalendarService;
+  /** An automatic checkweigher's packs made into checks; tests call flushStale() by hand. */
+  checkweigher: CheckweigherService & { flushStale(): Promise<number> };
 }

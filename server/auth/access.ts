@@ -20,6 +20,8 @@ export const BOARD_READ: Access[] = [...ROLES, 'board-token'];
 declare module 'fastify' {
   interface FastifyContextConfig {
     roles?: Access[];
+    /** A route without a :lineId that answers a checks token only about its own lines (the handler filters). */
+    tokenLinesInHandler?: boolean;
   }
   interface FastifyRequest {
     actor: Actor | null;
@@ -100,6 +102,7 @@ export function installAccess(app: FastifyInstance, auth: AuthService): void {
     }
     if (actor.tokenKind === 'board' && roles.includes('board-token')) return;
     if (actor.tokenKind === 'checks' && roles.includes('checks-token')) {
+      if (request.routeOptions.config?.tokenLinesInHandler) return;
       const lineId = Number((request.params as Record<string, string> | undefined)?.lineId);
       if (actor.lineIds.includes(lineId)) return;
       throw forbidden(`this token may post checks only for lines ${actor.lineIds.join(', ') || '(none)'}`);

@@ -3,6 +3,7 @@ import { alertSummarySchema, alertViewSchema, checkSignalViewSchema } from '../a
 import { productViewSchema } from '../products/contract.js';
 import { inference, instant, instantOrNull, lineStatus, meanChartLimits, sampleSummary, spreadChartLimits, lineStopSchema } from '../shared/contract.js';
 import { freeText, isoTime, rangeQuery } from '../shared/schemas.js';
+import { CHECK_SOURCES } from './repository.js';
 
 /** What the checks and status routes take and answer (API.md, "Check entry" and "Status"). */
 
@@ -16,6 +17,8 @@ export const checkBody = z.strictObject({
   basis: z.enum(['net', 'gross']).optional(),
   note: freeText(500).nullable().optional(),
   confirmSuspect: z.boolean().optional(),
+  /** Where the weights came from (a checkweigher's checks are formed by POST /api/lines/:lineId/packs). */
+  source: z.enum(['keyed', 'scale', 'bridge'], { error: 'one of keyed, scale, bridge' }).optional(),
 });
 
 export const correctionBody = z.strictObject({
@@ -53,6 +56,7 @@ export const checkViewSchema = z.strictObject({
   supersededBy: z.number().nullable(),
   revisionReason: z.string().nullable(),
   enteredBy: z.string().nullable(),
+  source: z.enum(CHECK_SOURCES),
   note: z.string().nullable(),
   limitsVersionId: z.number().nullable(),
   window: z.strictObject({ checks: z.number(), n: z.number(), mean: z.number(), sd: z.number().nullable(), ...inference }),

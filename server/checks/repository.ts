@@ -2,6 +2,10 @@ import type Database from 'better-sqlite3';
 import type { Db } from '../db/database.js';
 import type { Basis } from '../products/repository.js';
 
+/** Where a check's weights came from: typed, a tablet's serial scale, a scale bridge, or a checkweigher's stream. */
+export const CHECK_SOURCES = ['keyed', 'scale', 'bridge', 'checkweigher'] as const;
+export type CheckSource = (typeof CHECK_SOURCES)[number];
+
 export interface StoredCheck {
   id: number;
   lineId: number;
@@ -11,6 +15,7 @@ export interface StoredCheck {
   takenAt: number;
   recordedAt: number;
   basis: Basis;
+  source: CheckSource;
   enteredBy: string | null;
   note: string | null;
   revision: number;
@@ -46,6 +51,7 @@ interface CheckRow {
   taken_at: number;
   recorded_at: number;
   basis: Basis;
+  source: CheckSource;
   entered_by: string | null;
   note: string | null;
   revision: number;
@@ -85,6 +91,7 @@ function toCheck(r: CheckRow): StoredCheck {
     takenAt: r.taken_at,
     recordedAt: r.recorded_at,
     basis: r.basis,
+    source: r.source,
     enteredBy: r.entered_by,
     note: r.note,
     revision: r.revision,
@@ -118,10 +125,10 @@ export interface CheckQuery {
 
 export function createCheckRepository(db: Db) {
   const insertCheck = db.prepare(
-    `INSERT INTO checks (line_id, run_id, product_id, client_id, taken_at, recorded_at, basis, entered_by, note, revision,
+    `INSERT INTO checks (line_id, run_id, product_id, client_id, taken_at, recorded_at, basis, source, entered_by, note, revision,
        revises_check_id, revision_reason, n, mean, sd, range, target, below_t1, below_t2, window_checks, window_n,
        window_mean, window_sd, limits_version_id)
-     VALUES (@lineId, @runId, @productId, @clientId, @takenAt, @recordedAt, @basis, @enteredBy, @note, @revision,
+     VALUES (@lineId, @runId, @productId, @clientId, @takenAt, @recordedAt, @basis, @source, @enteredBy, @note, @revision,
        @revisesCheckId, @revisionReason, @n, @mean, @sd, @range, @target, @belowT1, @belowT2, @windowChecks, @windowN,
        @windowMean, @windowSd, @limitsVersionId)`,
   );

@@ -101,7 +101,7 @@ export const EXPORTS: Record<ExportKind, ExportSpec> = {
   checks: {
     columns: [
       'check_id', 'line', 'product', 'product_version', 'unit', 'taken_at_utc', 'taken_at_local', 'recorded_at_utc', 'basis', 'n', 'mean', 'sd', 'range', 'se', 't', 'df', 'p',
-      'ci95_low', 'ci95_high', 'target', 'below_t1', 'below_t2', 'revision', 'revises_check_id', 'superseded_by', 'revision_reason', 'entered_by', 'note',
+      'ci95_low', 'ci95_high', 'target', 'below_t1', 'below_t2', 'revision', 'revises_check_id', 'superseded_by', 'revision_reason', 'entered_by', 'source', 'note',
     ],
     *rows(db, range, tz) {
       for (const c of db.prepare(CHECKS_SQL).iterate(range) as Iterable<Record<string, number | string | null>>) {
@@ -134,6 +134,7 @@ export const EXPORTS: Record<ExportKind, ExportSpec> = {
           superseded_by: c.superseded_by as number | null,
           revision_reason: c.revision_reason as string | null,
           entered_by: c.entered_by as string | null,
+          source: c.source as string,
           note: c.note as string | null,
         };
       }

@@ -1,5 +1,5 @@
 import type { AlertKind, ShiftSize } from '../alerts/repository.js';
-import type { NewCheck, StoredCheck } from '../checks/repository.js';
+import type { CheckSource, NewCheck, StoredCheck } from '../checks/repository.js';
 import { conflict, DomainError } from '../errors.js';
 import type { Basis, Product } from '../products/repository.js';
 import { spreadChartLimits, standardisedMean, type ProcessModel } from '../stats/control-limits.js';
@@ -16,6 +16,8 @@ export interface CheckInput {
   basis?: Basis;
   note?: string | null;
   confirmSuspect?: boolean;
+  /** Where the weights came from; typed when not said. */
+  source?: CheckSource;
 }
 
 /** A signal as judged, before it is stored and joined to an alert. */
@@ -39,7 +41,7 @@ export interface CheckStep {
 }
 
 /** How far ahead of the server's clock a check's time may be (a tablet's clock runs fast). */
-const FUTURE_TOLERANCE_MS = 5 * 60_000;
+export const FUTURE_TOLERANCE_MS = 5 * 60_000;
 
 /**
  * The pure check step: validates the time and the weights, takes off the tare, refuses suspect
@@ -79,6 +81,7 @@ export function checkStep(
     takenAt,
     recordedAt: now,
     basis,
+    source: input.source ?? 'keyed',
     enteredBy: actor,
     note: input.note ?? null,
     revision: correction ? correction.old.revision + 1 : 1,

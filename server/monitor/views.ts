@@ -40,6 +40,7 @@ export function checkView(c: StoredCheck): CheckView {
     supersededBy: c.supersededBy,
     revisionReason: c.revisionReason,
     enteredBy: c.enteredBy,
+    source: c.source,
     note: c.note,
     limitsVersionId: c.limitsVersionId,
     window: {
