@@ -11,6 +11,7 @@ import { migrate } from './db/migrate.js';
 import { backupDatabase, restoreDatabase } from './db/backup.js';
 import { existsSync } from 'node:fs';
 import { DomainError } from './errors.js';
+import { runScaleBridge } from './scales/bridge-cli.js';
 
 const USAGE = `Usage: npm run heft -- <command> [options]
 
@@ -25,6 +26,8 @@ const USAGE = `Usage: npm run heft -- <command> [options]
   token list
   backup --to FILE                            a verified copy of the database, taken while the server runs
   restore --from FILE                         put a verified backup in the database's place (server stopped)
+  scale --server URL --line CODE (--serial PATH | --tcp HOST:PORT) [--token T] [--baud N] [--pattern REGEX] [--packs N]
+                                              the scale bridge: a scale's readings posted as checks (scale --help)
 
   --db FILE    the database (default ./data/heft.db, or HEFT_DB)
   A secret not given with --secret is read from HEFT_NEW_SECRET (or HEFT_SECRET), else asked for
@@ -86,6 +89,8 @@ function need(value: string | undefined, flag: string): string {
 }
 
 async function main(): Promise<void> {
+  // the scale bridge talks to a running server, not to the database: its own options
+  if (process.argv[2] === 'scale') return runScaleBridge(process.argv.slice(3));
   const { values, positionals } = parseArgs({
     allowPositionals: true,
     options: {
