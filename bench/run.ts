@@ -196,6 +196,39 @@ async function ingest(small: string, token: string): Promise<void> {
 }
 
 /**
+ * An automatic checkweigher: one line's packs posted 200 at a time, one post after another, as fast
+ * as the server takes them (each forms 40 checks of 5). Against the floor's one insert per request
+ * on one connection: a pack is a row there too. The goal is 200 packs/s per line, sustained.
+ */
+async function checkweigherStream(small: string, token: string): Promise<void> {
+  say('checkweigher: posts of 200 packs on one line, one connection');
+  const floorFile = join(dir, 'floor-packs.db');
+  const floorPort = nextPort++;
+  const floor = spawn(...node('server', ['--import', 'tsx', 'bench/floor.ts', floorFile, String(floorPort)]), { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'] });
+  await waitFor(floor, 'floor ready');
+  const heft = await startHeft(small);
+  const h: number[] = [];
+  const f: number[] = [];
+  for (let r = 0; r < ROUNDS; r += 1) {
+    f.push((await load(floorPort, token, 1)).rps);
+    let packs = 0;
+    let refused = 0;
+    const started = performance.now();
+    while (performance.now() - started < INGEST_MS) {
+      const batch = Array.from({ length: 200 }, (_, i) => ({ weight: Math.round((503 + ((packs + i) % 13) / 4 - 1.5) * 10) / 10 }));
+      const res = await httpPost(heft.port, '/api/lines/1/packs', { packs: batch, clientId: randomUUID() }, token);
+      if (res.status === 201) packs += batch.length;
+      else refused += 1;
+    }
+    if (refused > 0) throw new Error(`checkweigher bench: ${refused} posts refused`);
+    h.push(packs / ((performance.now() - started) / 1000));
+  }
+  addRow('checkweigher packs/s, one line, posts of 200', h, f, '/s', 0, `goal ≥ 200 packs/s per line: ${(median(h) / 200).toFixed(0)}× that`);
+  await stop(heft.child);
+  await stop(floor);
+}
+
+/**
  * A line off target with nobody resolving its alert: 2,000 checks in a row all join one alert. The
  * last 200 against the first 200, sequential posts (the cost of a check, not of concurrency).
  */
@@ -423,6 +456,7 @@ t0 = performance.now();
 if (!onlyIngest) await startup(small, big);
 await ingest(small, smallSeed.checksToken);
 await firingRun(small, smallSeed.checksToken);
+await checkweigherStream(small, smallSeed.checksToken);
 if (!onlyIngest) {
   await history(small, big, bigSeed.checks, smallSeed.checksToken, bigSeed.checksToken);
   await fanout(small, smallSeed.checksToken, smallSeed.boardToken);

@@ -162,6 +162,8 @@ describe.skipIf(!HAVE_CHROMIUM)('the wall board', () => {
     await wallPage.locator('#detail-mean .uplot').waitFor();
     await wallPage.locator('#detail-spread .uplot').waitFor();
     expect(await wallPage.locator('#detail-alerts').innerText()).toMatch(/acknowledged by supervisor/);
+    // every demo check was typed at the tablet: the view says where the run's weights came from
+    expect(await wallPage.locator('#detail-sources').innerText()).toMatch(/^Checks in this run: \d+ typed; the last typed\.$/);
     await wallPage.screenshot({ path: `${ARTIFACTS}board-detail.png` });
     await wallPage.locator('#detail-close').click();
     await wallPage.locator('#tiles').waitFor();

@@ -42,8 +42,10 @@ function problem(text: string | null): void {
 
 // ------------------------------------------------------------------ loading
 
+const SOURCE_WORDS: Record<string, string> = { keyed: 'typed', scale: 'from the tablet’s scale', bridge: 'from the scale bridge', checkweigher: 'from the checkweigher' };
+
 function toPoint(c: Check): ChartPoint {
-  return { checkId: c.id, at: Date.parse(c.takenAt) / 1000, mean: c.mean, n: c.n, sd: c.sd, range: c.range };
+  return { checkId: c.id, at: Date.parse(c.takenAt) / 1000, mean: c.mean, n: c.n, sd: c.sd, range: c.range, source: c.source };
 }
 
 async function loadLine(line: Line): Promise<LineView> {
@@ -195,6 +197,9 @@ function renderDetail(): void {
     $('spread-caption').textContent = `${limits.spreadChart.chart === 'S' ? 'Standard deviation' : limits.spreadChart.chart === 'R' ? 'Range' : 'Moving range'} of each check with its upper limit`;
     detailCharts.push(spreadChart(spreadBox, width, 320, v.points, limits.spreadChart.chart, () => limits.spreadChart.ucl));
   }
+  const counts = new Map<string, number>();
+  for (const pt of v.points) counts.set(pt.source ?? 'keyed', (counts.get(pt.source ?? 'keyed') ?? 0) + 1);
+  $('detail-sources').textContent = counts.size ? `Checks in this run: ${[...counts].map(([s, n]) => `${n} ${SOURCE_WORDS[s] ?? s}`).join(', ')}; the last ${SOURCE_WORDS[v.points[v.points.length - 1]?.source ?? 'keyed']}.` : '';
   const list = $('detail-alerts');
   const all = [...v.alerts.values()].sort((a, b) => Date.parse(b.openedAt) - Date.parse(a.openedAt));
   list.replaceChildren(...(all.length ? all.map((a) => alertItem(a, v.status?.product?.unit ?? 'g', board.plant.timeZone, act)) : [el('p', { class: 'muted' }, 'No alerts in this run.')]));

@@ -3,6 +3,8 @@ import './entry.css';
 import { api, ApiError, getPlant, NetworkError, signIn, signOut, whoAmI, type Check, type Line, type Plant, type CheckAnswer, type CheckSignal, type Product, type Status, type User } from '../shared/api.js';
 import { clock, decimalsFor, el, overUnder, parseDecimal, stopWords, weight } from '../shared/format.js';
 import { enqueue, remove, waiting, type QueuedCheck } from './queue.js';
+import { setUpScale } from './scale.js';
+import type { ScaleProfileView } from '../../server/scales/contract.js';
 
 const LINE_KEY = 'heft.entry.lineId';
 const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as T;
@@ -26,7 +28,8 @@ const state: {
   flushing: boolean;
   retryMs: number;
   retryTimer: number | null;
-} = { plant: { name: 'Heft', timeZone: 'UTC' }, user: null, line: null, product: null, lastCheck: null, correcting: null, inputs: [], flushing: false, retryMs: 2000, retryTimer: null };
+  scale: ScaleProfileView | null;
+} = { scale: null, plant: { name: 'Heft', timeZone: 'UTC' }, user: null, line: null, product: null, lastCheck: null, correcting: null, inputs: [], flushing: false, retryMs: 2000, retryTimer: null };
 
 function show(section: 'signin' | 'pick' | 'entry'): void {
   for (const id of ['signin', 'pick', 'entry']) $(id).classList.toggle('hidden', id !== section);
@@ -112,6 +115,7 @@ async function openLine(): Promise<void> {
   $('product-title').textContent = line.product ? line.product.name : 'no product running';
   const latest = await api<{ checks: Check[] }>('GET', `/api/lines/${line.id}/checks?limit=1`).catch(() => ({ checks: [] as Check[] }));
   state.lastCheck = latest.checks[0] ?? null;
+  state.scale = (await api<{ scale: ScaleProfileView }>('GET', `/api/lines/${line.id}/scale`).catch(() => null))?.scale ?? null;
   $('correct').classList.toggle('hidden', !state.lastCheck);
   buildForm();
   show('entry');
@@ -188,7 +192,10 @@ function buildForm(): void {
       const id = `w${i}`;
       const input = el('input', { id, name: id, inputmode: 'decimal', autocomplete: 'off', enterkeyhint: i === n - 1 ? 'send' : 'next', 'aria-describedby': `${id}-flag` });
       const flag = el('span', { id: `${id}-flag`, class: 'flag', 'aria-live': 'polite' });
-      input.addEventListener('input', () => flagValue(input, flag));
+      input.addEventListener('input', () => {
+        delete input.parentElement?.dataset.source; // typed over: no longer the scale's
+        flagValue(input, flag);
+      });
       input.addEventListener('keydown', (event) => {
         if (event.key !== 'Enter') return;
         event.preventDefault();
@@ -315,12 +322,14 @@ async function submit(): Promise<void> {
     clientId: crypto.randomUUID(),
     basis: p.entryBasis,
     ...(confirmSuspect ? { confirmSuspect: true } : {}),
+    ...(!state.correcting && state.inputs.every((i) => i.parentElement?.dataset.source === 'scale') ? { source: 'scale' } : {}),
     ...(state.correcting ? { reason } : {}),
   };
   const item: QueuedCheck = { clientId: body.clientId as string, lineId: line.id, correctsCheckId: state.correcting?.id ?? null, body, queuedAt: Date.now() };
   await enqueue(item);
   for (const input of state.inputs) {
     input.value = '';
+    delete input.parentElement?.dataset.source;
     flagValue(input, input.parentElement?.querySelector('.flag') as HTMLElement);
   }
   if (state.correcting) endCorrection();
@@ -417,3 +426,22 @@ async function showResult(answer: CheckAnswer, wasWaiting: boolean): Promise<voi
 }
 
 void start();
+
+// ------------------------------------------------------------------ a serial scale (Web Serial)
+
+setUpScale($<HTMLButtonElement>('connect-scale'), {
+  current: () => (state.product && state.scale && !$('entry').classList.contains('hidden') ? { profile: state.scale, unit: state.product.unit } : null),
+  onWeight(value) {
+    const input = state.inputs.find((i) => i.value.trim() === '');
+    if (!input || !state.product) return false;
+    input.value = String(value);
+    (input.parentElement as HTMLElement).dataset.source = 'scale';
+    flagValue(input, input.parentElement?.querySelector('.flag') as HTMLElement);
+    const next = state.inputs.find((i) => i.value.trim() === '');
+    if (next) next.focus();
+    else if (state.scale?.sendOnLast) void submit();
+    else $('submit').focus();
+    return true;
+  },
+  say: (text, tone) => Object.assign($('scale-note'), { textContent: text }).setAttribute('data-tone', tone),
+});

@@ -10,6 +10,8 @@ export interface ChartPoint {
   n: number;
   sd: number | null;
   range: number;
+  /** Where the check's weights came from (keyed, scale, bridge, checkweigher). */
+  source?: string;
 }
 
 const css = (name: string) => getComputedStyle(document.documentElement).getPropertyValue(name).trim() || '#888';
