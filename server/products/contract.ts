@@ -71,3 +71,6 @@ export const productVersionsAnswer = z.strictObject({
   versions: z.array(z.strictObject({ version: z.number().int(), validFrom: instant, product: productViewSchema })),
 });
 export const productListAnswer = z.strictObject({ products: z.array(productViewSchema) });
+
+/** What an imported file did: the codes created and the codes changed (mode=update), in file order. */
+export const productImportAnswer = z.strictObject({ created: z.array(z.string()), updated: z.array(z.string()) });

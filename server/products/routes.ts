@@ -1,39 +1,16 @@
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
-import type { z } from 'zod';
+import { z } from 'zod';
 import { ADMIN, BOARD_READ, requireActor } from '../auth/access.js';
 import { actorName } from '../auth/service.js';
 import type { HeftContext } from '../context.js';
 import { badField, notFound } from '../errors.js';
-import { productAnswer, productBody, productListAnswer, productParams, productPatch, productVersionsAnswer } from './contract.js';
+import { productAnswer, productBody, productImportAnswer, productListAnswer, productParams, productPatch, productVersionsAnswer } from './contract.js';
 import { productView } from './views.js';
-import type { Product, ProductFields } from './repository.js';
+import type { Product } from './repository.js';
+import { toFields, type ProductInput } from './fields.js';
+import { importProducts } from './import.js';
 import { createProductService } from './service.js';
-
-type ProductInput = z.output<typeof productBody>;
-
-function toFields(input: ProductInput, base?: ProductFields): ProductFields {
-  const fields: ProductFields = {
-    code: input.code,
-    name: input.name,
-    nominal: input.nominal,
-    unit: input.unit,
-    target: input.target,
-    subgroupSize: input.subgroupSize,
-    samplingMinutes: input.samplingMinutes,
-    tare: input.tare ?? base?.tare ?? 0,
-    windowSize: input.windowSize ?? base?.windowSize ?? 10,
-    sigma: input.sigma === undefined ? (base?.sigma ?? null) : input.sigma,
-    lsl: input.lsl === undefined ? (base?.lsl ?? null) : input.lsl,
-    usl: input.usl === undefined ? (base?.usl ?? null) : input.usl,
-    entryBasis: input.entryBasis ?? base?.entryBasis ?? 'net',
-    costPerKg: input.costPerKg === undefined ? (base?.costPerKg ?? null) : input.costPerKg,
-    rules: input.rules ?? base?.rules ?? {},
-  };
-  if (fields.lsl !== null && fields.usl !== null && fields.lsl >= fields.usl) throw badField('usl', 'must be above lsl');
-  if (fields.target > 2 * fields.nominal) throw badField('target', 'more than twice the nominal: check the unit');
-  return fields;
-}
 
 export const productsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fastify, { ctx }) => {
   const app = fastify.withTypeProvider<ZodTypeProvider>();
@@ -63,4 +40,20 @@ export const productsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (f
     const merge = (before: Product) => toFields({ ...productView(before), ...req.body } as ProductInput, before);
     return { product: productView(products.update(req.params.productId, merge, productView, actorName(requireActor(req)))) };
   });
+
+  // a spreadsheet of products: text/csv, read whole before anything is written
+  app.addContentTypeParser('text/csv', { parseAs: 'string', bodyLimit: 8 * 1024 * 1024 }, (_req, body, done) => done(null, body));
+  app.post(
+    '/api/products/import',
+    {
+      config: { roles: ADMIN },
+      schema: { querystring: z.strictObject({ mode: z.enum(['create', 'update'], { error: 'create or update' }).default('create') }), response: { 201: productImportAnswer } },
+    },
+    async (req, reply) => {
+      if (typeof req.body !== 'string') throw badRequestBody();
+      return reply.code(201).send(importProducts(ctx, products, req.body, req.query.mode, actorName(requireActor(req))));
+    },
+  );
 };
+
+const badRequestBody = () => badField('body', 'send the file as text/csv');

@@ -46,6 +46,7 @@ const MATRIX: Record<string, { who: Principal[]; url: string; payload?: object; 
   'GET /api/products/:productId': { who: BOARD, url: '/api/products/1', ok: 200 },
   'GET /api/products/:productId/versions': { who: BOARD, url: '/api/products/1/versions', ok: 200 },
   'POST /api/products': { who: ADMIN, url: '/api/products', payload: {}, ok: 400 },
+  'POST /api/products/import': { who: ADMIN, url: '/api/products/import', payload: {}, ok: 400 },
   'PATCH /api/products/:productId': { who: ADMIN, url: '/api/products/1', payload: {}, ok: 200 },
   'POST /api/lines/:lineId/checks': { who: [...PEOPLE, 'checks-token'], url: '/api/lines/1/checks', payload: {}, ok: 400 },
   'POST /api/lines/:lineId/packs': { who: [...PEOPLE, 'checks-token'], url: '/api/lines/1/packs', payload: {}, ok: 400 },
