@@ -18,6 +18,7 @@ export default defineConfig({
         entry: web('entry/index.html'),
         board: web('board/index.html'),
         review: web('review/index.html'),
+        setup: web('setup/index.html'),
       },
     },
   },

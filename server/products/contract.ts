@@ -74,3 +74,22 @@ export const productListAnswer = z.strictObject({ products: z.array(productViewS
 
 /** What an imported file did: the codes created and the codes changed (mode=update), in file order. */
 export const productImportAnswer = z.strictObject({ created: z.array(z.string()), updated: z.array(z.string()) });
+
+/** What the set-up form shows as the user types: the figures Heft derives from a nominal (and σ). */
+export const productPreviewBody = z.strictObject({
+  nominal: weight,
+  unit,
+  subgroupSize: z.number().int().min(1).max(50).optional(),
+  sigma: weight.nullable().optional(),
+});
+export const productPreviewSchema = z.strictObject({
+  tne: z.number().nullable(),
+  t1: z.number().nullable(),
+  t2: z.number().nullable(),
+  /** σ/√n: the spread of a check's mean. */
+  sigmaOfMean: z.number().nullable(),
+  /** max(Qn, T1 + 1.96σ, T2 + 3.72σ): the lowest target the review would advise for this σ. */
+  lowestTarget: z.number().nullable(),
+});
+export type ProductPreview = z.output<typeof productPreviewSchema>;
+export const productPreviewAnswer = z.strictObject({ preview: productPreviewSchema });

@@ -1,11 +1,13 @@
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { ADMIN, BOARD_READ, requireActor } from '../auth/access.js';
+import { BOARD_READ, QUALITY_UP, requireActor } from '../auth/access.js';
+import { netQuantityLimits } from '../stats/tne.js';
+import { lowestTarget } from '../stats/net-quantity.js';
 import { actorName } from '../auth/service.js';
 import type { HeftContext } from '../context.js';
 import { badField, notFound } from '../errors.js';
-import { productAnswer, productBody, productImportAnswer, productListAnswer, productParams, productPatch, productVersionsAnswer } from './contract.js';
+import { productAnswer, productBody, productImportAnswer, productListAnswer, productPreviewAnswer, productPreviewBody, productParams, productPatch, productVersionsAnswer } from './contract.js';
 import { productView } from './views.js';
 import type { Product } from './repository.js';
 import { toFields, type ProductInput } from './fields.js';
@@ -31,14 +33,29 @@ export const productsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (f
     return { versions: versions.map((v) => ({ version: v.version, validFrom: new Date(v.validFrom).toISOString(), product: productView(v.product) })) };
   });
 
-  app.post('/api/products', { config: { roles: ADMIN }, schema: { body: productBody, response: { 201: productAnswer } } }, async (req, reply) => {
+  app.post('/api/products', { config: { roles: QUALITY_UP }, schema: { body: productBody, response: { 201: productAnswer } } }, async (req, reply) => {
     const product = products.create(toFields(req.body), actorName(requireActor(req)));
     return reply.code(201).send({ product: productView(product) });
   });
 
-  app.patch('/api/products/:productId', { config: { roles: ADMIN }, schema: { params: productParams, body: productPatch, response: { 200: productAnswer } } }, async (req) => {
+  app.patch('/api/products/:productId', { config: { roles: QUALITY_UP }, schema: { params: productParams, body: productPatch, response: { 200: productAnswer } } }, async (req) => {
     const merge = (before: Product) => toFields({ ...productView(before), ...req.body } as ProductInput, before);
     return { product: productView(products.update(req.params.productId, merge, productView, actorName(requireActor(req)))) };
+  });
+
+  app.post('/api/products/preview', { config: { roles: QUALITY_UP }, schema: { body: productPreviewBody, response: { 200: productPreviewAnswer } } }, async (req) => {
+    const { nominal, unit, subgroupSize, sigma } = req.body;
+    const limits = netQuantityLimits(nominal, unit);
+    const s = sigma ?? null;
+    return {
+      preview: {
+        tne: limits?.tne ?? null,
+        t1: limits?.t1 ?? null,
+        t2: limits?.t2 ?? null,
+        sigmaOfMean: s !== null && subgroupSize ? s / Math.sqrt(subgroupSize) : null,
+        lowestTarget: limits && s !== null ? lowestTarget(nominal, limits.t1, limits.t2, s) : null,
+      },
+    };
   });
 
   // a spreadsheet of products: text/csv, read whole before anything is written
@@ -46,7 +63,7 @@ export const productsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (f
   app.post(
     '/api/products/import',
     {
-      config: { roles: ADMIN },
+      config: { roles: QUALITY_UP },
       schema: { querystring: z.strictObject({ mode: z.enum(['create', 'update'], { error: 'create or update' }).default('create') }), response: { 201: productImportAnswer } },
     },
     async (req, reply) => {

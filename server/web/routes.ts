@@ -9,6 +9,7 @@ const PAGES: Record<string, string> = {
   '/entry': 'entry/index.html',
   '/board': 'board/index.html',
   '/review': 'review/index.html',
+  '/setup': 'setup/index.html',
 };
 
 /** Serves the built pages. The pages are public; every piece of data they show needs a sign-in. */

@@ -45,9 +45,10 @@ const MATRIX: Record<string, { who: Principal[]; url: string; payload?: object; 
   'GET /api/products': { who: BOARD, url: '/api/products', ok: 200 },
   'GET /api/products/:productId': { who: BOARD, url: '/api/products/1', ok: 200 },
   'GET /api/products/:productId/versions': { who: BOARD, url: '/api/products/1/versions', ok: 200 },
-  'POST /api/products': { who: ADMIN, url: '/api/products', payload: {}, ok: 400 },
-  'POST /api/products/import': { who: ADMIN, url: '/api/products/import', payload: {}, ok: 400 },
-  'PATCH /api/products/:productId': { who: ADMIN, url: '/api/products/1', payload: {}, ok: 200 },
+  'POST /api/products': { who: QUAL, url: '/api/products', payload: {}, ok: 400 },
+  'POST /api/products/preview': { who: QUAL, url: '/api/products/preview', payload: {}, ok: 400 },
+  'POST /api/products/import': { who: QUAL, url: '/api/products/import', payload: {}, ok: 400 },
+  'PATCH /api/products/:productId': { who: QUAL, url: '/api/products/1', payload: {}, ok: 200 },
   'POST /api/lines/:lineId/checks': { who: [...PEOPLE, 'checks-token'], url: '/api/lines/1/checks', payload: {}, ok: 400 },
   'POST /api/lines/:lineId/packs': { who: [...PEOPLE, 'checks-token'], url: '/api/lines/1/packs', payload: {}, ok: 400 },
   'GET /api/lines/:lineId/scale': { who: [...BOARD, 'checks-token'], url: '/api/lines/1/scale', ok: 200 },
@@ -86,6 +87,7 @@ const MATRIX: Record<string, { who: Principal[]; url: string; payload?: object; 
   'GET /entry': { who: ANYONE, url: '/entry', ok: PAGE },
   'GET /board': { who: ANYONE, url: '/board', ok: PAGE },
   'GET /review': { who: ANYONE, url: '/review', ok: PAGE },
+  'GET /setup': { who: ANYONE, url: '/setup', ok: PAGE },
   'GET /assets/*': { who: ANYONE, url: '/assets/none.js', ok: 404 },
 };
 

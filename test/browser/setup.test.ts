@@ -1,0 +1,146 @@
+import { writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import type { BrowserContext, Page } from 'playwright-core';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { countRows, makeTestApp, removeDir, SECRETS, setupLine, type TestApp } from '../helpers.js';
+import { ARTIFACTS, HAVE_CHROMIUM, launchBrowser } from './harness.js';
+
+let t: TestApp;
+let browser: BrowserContext;
+let base: string;
+let lineId: number;
+
+beforeAll(async () => {
+  if (!HAVE_CHROMIUM) return;
+  t = await makeTestApp({ realTime: true });
+  ({ lineId } = await setupLine(t));
+  await t.app.listen({ port: 0, host: '127.0.0.1' });
+  base = `http://127.0.0.1:${(t.app.server.address() as { port: number }).port}`;
+  browser = await launchBrowser();
+});
+
+afterAll(async () => {
+  if (!HAVE_CHROMIUM) return;
+  await browser.close();
+  await t.close();
+  removeDir(t.dir);
+});
+
+/** /setup in a fresh page, signed in as `role` through the page's own form. */
+async function setupAs(role: 'operator' | 'quality' | 'admin'): Promise<Page> {
+  const page = await browser.newPage();
+  page.on('pageerror', (e) => console.log('page error:', e.message));
+  await browser.clearCookies();
+  await page.goto(`${base}/setup`);
+  await page.locator('#si-user').fill(role);
+  await page.locator('#si-secret').fill(SECRETS[role]);
+  await page.locator('#signin-form button[type="submit"]').click();
+  return page;
+}
+
+describe.skipIf(!HAVE_CHROMIUM)('plant set-up in the browser', () => {
+  it('when an operator opens /setup, then the page says it is not for them and shows no section', async () => {
+    const page = await setupAs('operator');
+    await expect.poll(() => page.locator('#problem').innerText()).toMatch(/signed in as operator\. Plant set-up is for the quality manager and the plant admin/);
+    expect(await page.locator('#sections').isHidden()).toBe(true);
+    await page.close();
+  });
+
+  it('when the quality manager makes a product through the form, then the derived figures show as they type, a bad field is named beside it, and the product is in GET /api/products', async () => {
+    const page = await setupAs('quality');
+    await page.getByRole('button', { name: 'New product' }).click();
+    const form = page.locator('#product-form');
+    await form.getByLabel('Code', { exact: true }).fill('OAT-500');
+    await form.getByLabel('Name', { exact: true }).fill('Rolled oats 500 g');
+    await form.getByLabel('Nominal quantity').fill('500');
+    await form.getByLabel('Target', { exact: true }).fill('504');
+    await form.getByLabel('σ of one pack, if known').fill('2');
+    // TNE of 500 g is 15 g, so T1 485 g and T2 470 g (CHECK-VALUES.md, the TNE table; 76/211/EEC Annex I)
+    await expect.poll(() => page.locator('#derived').innerText()).toMatch(/TNE\s+15\.0 g[\s\S]*T1\s+485\.0 g[\s\S]*T2\s+470\.0 g/);
+    // σ/√5 and max(500, 485 + 1.96·2, 470 + 3.72·2) = 500 g
+    expect(await page.locator('#derived').innerText()).toMatch(/σ of a check’s mean\s+0\.9 g[\s\S]*Lowest target advised\s+500\.0 g/);
+    // people in the people section are the admin's: the quality manager sees products only
+    expect(await page.locator('#people').isHidden()).toBe(true);
+    await form.getByLabel('Lower specification limit').fill('510');
+    await form.getByLabel('Upper specification limit').fill('505');
+    await page.getByRole('button', { name: 'Save' }).first().click();
+    await expect.poll(() => page.locator('#pf-usl-error').innerText()).toBe('must be above lsl');
+    expect(await form.getByLabel('Code', { exact: true }).inputValue()).toBe('OAT-500'); // what was typed stays
+    expect(countRows(t.db, 'products')).toBe(1);
+    await form.getByLabel('Lower specification limit').fill('');
+    await form.getByLabel('Upper specification limit').fill('');
+    await page.getByRole('button', { name: 'Save' }).first().click();
+    await expect.poll(() => page.locator('#product-saved').innerText()).toMatch(/^Saved OAT-500/);
+    const products = (await t.app.inject({ method: 'GET', url: '/api/products', headers: { cookie: t.cookies.operator } })).json().products as { code: string; target: number; sigma: number }[];
+    expect(products.find((p) => p.code === 'OAT-500')).toMatchObject({ target: 504, sigma: 2 });
+    await page.locator('#products').screenshot({ path: `${ARTIFACTS}setup-products.png` });
+    await page.close();
+  });
+
+  it('when a CSV with one bad row is imported, then it is refused with the row named and nothing written; fixed, it goes in', async () => {
+    const page = await setupAs('quality');
+    const before = countRows(t.db, 'products');
+    const file = join(t.dir, 'products.csv');
+    const header = 'code;name;nominal;unit;target;subgroupSize;samplingMinutes';
+    writeFileSync(file, [header, 'RIC-1K;Rice 1 kg;1;kg;1,009;5;60', 'RIC-2K;Rice 2 kg;2;kg;two;5;60'].join('\n'));
+    await page.getByLabel('Products file (CSV)').setInputFiles(file);
+    await expect.poll(() => page.locator('#import-preview').innerText()).toContain('RIC-2K');
+    await page.getByRole('button', { name: 'Import' }).click();
+    await expect.poll(() => page.locator('#import-errors').innerText()).toBe('Row 3, target: "two" is not a number');
+    expect(countRows(t.db, 'products')).toBe(before);
+    const fixed = join(t.dir, 'products-fixed.csv');
+    writeFileSync(fixed, [header, 'RIC-1K;Rice 1 kg;1;kg;1,009;5;60', 'RIC-2K;Rice 2 kg;2;kg;2,012;5;60'].join('\n'));
+    await page.getByLabel('Products file (CSV)').setInputFiles(fixed);
+    await page.getByRole('button', { name: 'Import' }).click();
+    await expect.poll(() => page.locator('#import-result').innerText()).toBe('Imported: 2 new, 0 changed.');
+    expect(countRows(t.db, 'products')).toBe(before + 2);
+    await expect.poll(() => page.locator('#product-table tr[data-code="RIC-2K"]').count()).toBe(1);
+    await page.locator('#import-form').screenshot({ path: `${ARTIFACTS}setup-import.png` });
+    await page.close();
+  });
+
+  it('when the admin adds an operator, then the new operator signs in on /entry', async () => {
+    const page = await setupAs('admin');
+    await page.getByLabel('Username', { exact: true }).last().fill('kit.marr');
+    await page.getByLabel('Display name').fill('Kit Marr');
+    await page.getByLabel('PIN or password', { exact: true }).fill('7391');
+    await page.getByLabel('Type it again').fill('7392');
+    await page.locator('#person-form button[type="submit"]').click();
+    await expect.poll(() => page.locator('#pp-again-error').innerText()).toMatch(/differs/);
+    await page.getByLabel('Type it again').fill('7391');
+    await page.locator('#person-form button[type="submit"]').click();
+    await expect.poll(() => page.locator('#people-table tr[data-username="kit.marr"]').innerText()).toMatch(/Kit Marr\s+operator\s+active/);
+    await page.locator('#people').screenshot({ path: `${ARTIFACTS}setup-people.png` });
+    await browser.clearCookies();
+    await page.goto(`${base}/entry?line=${lineId}`);
+    await page.locator('#username').fill('kit.marr');
+    await page.locator('#pin').fill('7391');
+    await page.locator('#signin-form button[type="submit"]').click();
+    await page.locator('#w0').waitFor({ state: 'visible' });
+    await page.close();
+  });
+
+  it('when the admin makes a checks token and a board token, then each is shown once, the board one with its link and QR code, and the checks one posts a check', async () => {
+    const page = await setupAs('admin');
+    await page.getByLabel('Name', { exact: true }).last().fill('L1 checkweigher');
+    await page.locator(`#tk-lines input[value="${lineId}"]`).check();
+    await page.locator('#token-form button[type="submit"]').click();
+    await expect.poll(() => page.locator('#token-secret').inputValue()).toMatch(/.{20,}/);
+    const secret = await page.locator('#token-secret').inputValue();
+    expect(await page.locator('#token-qr').isHidden()).toBe(true);
+    const posted = await fetch(`${base}/api/lines/${lineId}/checks`, {
+      method: 'POST',
+      headers: { 'content-type': 'application/json', authorization: `Bearer ${secret}` },
+      body: JSON.stringify({ weights: [503, 502.5, 504, 503.5, 502], clientId: crypto.randomUUID() }),
+    });
+    expect(posted.status).toBe(201);
+    await page.getByLabel('Name', { exact: true }).last().fill('Hall A wall');
+    await page.getByLabel('Kind').selectOption('board');
+    await page.locator('#token-form button[type="submit"]').click();
+    await expect.poll(() => page.locator('#token-link').innerText()).toMatch(/\/board\?token=/);
+    await expect.poll(() => page.locator('#token-qr').evaluate((img: HTMLImageElement) => img.complete && img.naturalWidth)).toBeGreaterThan(100);
+    await expect.poll(() => page.locator('#token-table tbody tr').count()).toBe(2);
+    await page.locator('#tokens').screenshot({ path: `${ARTIFACTS}setup-tokens.png` });
+    await page.close();
+  });
+});
