@@ -1,29 +1,24 @@
 import type { BrowserContext } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { makeTestApp, removeDir, SECRETS, setupLine, type TestApp } from '../helpers.js';
-import { ARTIFACTS, HAVE_CHROMIUM, launchBrowser } from './harness.js';
+import { SECRETS, type TestApp } from '../helpers.js';
+import { ARTIFACTS, HAVE_CHROMIUM, startPageApp, type PageApp } from './harness.js';
 
 let t: TestApp;
 let browser: BrowserContext;
 let base: string;
 let lineId: number;
+let pages: PageApp | null = null;
 
 beforeAll(async () => {
   if (!HAVE_CHROMIUM) return;
-  t = await makeTestApp({ realTime: true });
-  ({ lineId } = await setupLine(t, { target: 503, sigma: 2, tare: 0 }));
+  pages = await startPageApp({ target: 503, sigma: 2, tare: 0 });
+  ({ t, base, browser, lineId } = pages);
   const profile = await t.app.inject({ method: 'PUT', url: `/api/lines/${lineId}/scale`, headers: { cookie: t.cookies.admin }, payload: { connection: 'web-serial', baudRate: 4800, unstablePattern: '^US' } });
   if (profile.statusCode !== 200) throw new Error(profile.body);
-  await t.app.listen({ port: 0, host: '127.0.0.1' });
-  base = `http://127.0.0.1:${(t.app.server.address() as { port: number }).port}`;
-  browser = await launchBrowser();
 });
 
 afterAll(async () => {
-  if (!HAVE_CHROMIUM) return;
-  await browser.close();
-  await t.close();
-  removeDir(t.dir);
+  await pages?.close();
 });
 
 /**

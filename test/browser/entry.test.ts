@@ -1,27 +1,22 @@
 import type { BrowserContext, Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { countRows, makeTestApp, removeDir, SECRETS, setupLine, type TestApp } from '../helpers.js';
-import { ARTIFACTS, HAVE_CHROMIUM, launchBrowser } from './harness.js';
+import { countRows, SECRETS, type TestApp } from '../helpers.js';
+import { ARTIFACTS, HAVE_CHROMIUM, startPageApp, type PageApp } from './harness.js';
 
 let t: TestApp;
 let browser: BrowserContext;
 let base: string;
 let lineId: number;
+let pages: PageApp | null = null;
 
 beforeAll(async () => {
   if (!HAVE_CHROMIUM) return;
-  t = await makeTestApp({ realTime: true });
-  ({ lineId } = await setupLine(t, { target: 503, sigma: 2, tare: 0 }));
-  await t.app.listen({ port: 0, host: '127.0.0.1' });
-  base = `http://127.0.0.1:${(t.app.server.address() as { port: number }).port}`;
-  browser = await launchBrowser();
+  pages = await startPageApp({ target: 503, sigma: 2, tare: 0 });
+  ({ t, base, browser, lineId } = pages);
 });
 
 afterAll(async () => {
-  if (!HAVE_CHROMIUM) return;
-  await browser.close();
-  await t.close();
-  removeDir(t.dir);
+  await pages?.close();
 });
 
 /** Opens the entry page bound to the line and signs in with the keyboard alone. */

@@ -2,28 +2,23 @@ import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type { BrowserContext, Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { countRows, makeTestApp, removeDir, SECRETS, setupLine, type TestApp } from '../helpers.js';
-import { ARTIFACTS, HAVE_CHROMIUM, launchBrowser } from './harness.js';
+import { countRows, SECRETS, type TestApp } from '../helpers.js';
+import { ARTIFACTS, HAVE_CHROMIUM, startPageApp, type PageApp } from './harness.js';
 
 let t: TestApp;
 let browser: BrowserContext;
 let base: string;
 let lineId: number;
+let pages: PageApp | null = null;
 
 beforeAll(async () => {
   if (!HAVE_CHROMIUM) return;
-  t = await makeTestApp({ realTime: true });
-  ({ lineId } = await setupLine(t));
-  await t.app.listen({ port: 0, host: '127.0.0.1' });
-  base = `http://127.0.0.1:${(t.app.server.address() as { port: number }).port}`;
-  browser = await launchBrowser();
+  pages = await startPageApp();
+  ({ t, base, browser, lineId } = pages);
 });
 
 afterAll(async () => {
-  if (!HAVE_CHROMIUM) return;
-  await browser.close();
-  await t.close();
-  removeDir(t.dir);
+  await pages?.close();
 });
 
 /** /setup in a fresh page, signed in as `role` through the page's own form. */
