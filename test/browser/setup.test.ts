@@ -138,4 +138,28 @@ describe.skipIf(!HAVE_CHROMIUM)('plant set-up in the browser', () => {
     await page.locator('#tokens').screenshot({ path: `${ARTIFACTS}setup-tokens.png` });
     await page.close();
   });
+
+  it('when the admin sets a line’s scale, then a pasted sample reads as the profile says, a bad pattern is named beside its field, and the profile is saved', async () => {
+    const page = await setupAs('admin');
+    const form = page.locator('#scale-form');
+    await expect.poll(() => form.getByLabel('Baud rate').inputValue()).toBe('9600');
+    await form.getByLabel('Unstable readings match').fill('^US');
+    await form.getByLabel('Sample line from the scale').fill('US,GS,+0000501.2 g');
+    await page.getByRole('button', { name: 'Try the sample' }).click();
+    await expect.poll(() => page.locator('#scale-reading').innerText()).toBe('an unstable reading: ignored');
+    await form.getByLabel('Sample line from the scale').fill('ST,GS,+0,5031 kg');
+    await page.getByRole('button', { name: 'Try the sample' }).click();
+    await expect.poll(() => page.locator('#scale-reading').innerText()).toBe("a weight: 0.5031 kg (503.1 in the product's unit)");
+    await form.getByLabel(/^Reading pattern/).fill('\\d+ g');
+    await form.getByRole('button', { name: 'Save' }).click();
+    await expect.poll(() => page.locator('#sc-pattern-error').innerText()).toBe('needs a named group (?<weight>…) for the number');
+    await form.getByLabel(/^Reading pattern/).fill('');
+    await form.getByLabel('Baud rate').fill('19200');
+    await form.getByRole('button', { name: 'Save' }).click();
+    await expect.poll(() => page.locator('#scale-state').innerText()).toMatch(/^Set by admin on /);
+    const { scale } = (await t.app.inject({ method: 'GET', url: `/api/lines/${lineId}/scale`, headers: { cookie: t.cookies.operator } })).json();
+    expect([scale.baudRate, scale.unstablePattern, scale.pattern, scale.configured]).toEqual([19200, '^US', null, true]);
+    await page.locator('#scales').screenshot({ path: `${ARTIFACTS}setup-scales.png` });
+    await page.close();
+  });
 });

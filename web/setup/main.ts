@@ -5,6 +5,7 @@ import { api, ApiError, getPlant, signIn, whoAmI, type Line, type Product, type 
 import { el, weight } from '../shared/format.js';
 import type { ProductPreview } from '../../server/products/contract.js';
 import type { TokenView, UserView } from '../../server/auth/contract.js';
+import { setUpScales } from './scales.js';
 
 const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as T;
 const state: { user: User | null; products: Product[]; lines: Line[]; editing: Product | null } = { user: null, products: [], lines: [], editing: null };
@@ -50,6 +51,7 @@ async function start(): Promise<void> {
   $('who').textContent = `${user.displayName} (${user.role})`;
   for (const s of document.querySelectorAll<HTMLElement>('[data-admin-only]')) s.classList.toggle('hidden', user.role !== 'admin');
   await loadProducts();
+  await setUpScales(state.lines, user.role === 'admin');
   if (user.role === 'admin') await Promise.all([loadPeople(), loadTokens()]);
 }
 
