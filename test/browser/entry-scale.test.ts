@@ -51,7 +51,14 @@ function fakeSerial(): void {
     }
   }
   const port = new FakePort();
-  const serial = Object.assign(new EventTarget(), { requestPort: async () => port, getPorts: async () => [] as FakePort[] });
+  // the browser remembers a port the page was granted (here: for the tab's session)
+  const serial = Object.assign(new EventTarget(), {
+    requestPort: async () => {
+      sessionStorage.setItem('fake-serial-granted', '1');
+      return port;
+    },
+    getPorts: async () => (sessionStorage.getItem('fake-serial-granted') ? [port] : []),
+  });
   Object.defineProperty(navigator, 'serial', { value: serial });
   Object.assign(window, {
     __scale: {
@@ -101,6 +108,12 @@ describe.skipIf(!HAVE_CHROMIUM)('a serial scale on the entry page', () => {
     await expect.poll(() => page.locator('#scale-note').innerText()).toBe('scale disconnected — type the weights or reconnect');
     await page.evaluate(() => (window as unknown as ScaleWindow).__scale.replug());
     await expect.poll(() => page.locator('#scale-note').innerText()).toMatch(/^scale connected/);
+    // the tablet reloads the page (it slept, or the browser restarted the tab): the granted port opens by itself
+    await page.reload();
+    await page.locator('#w0').waitFor({ state: 'visible' });
+    await expect.poll(() => page.locator('#scale-note').innerText()).toMatch(/^scale connected/);
+    await page.evaluate(() => (window as unknown as ScaleWindow).__scale.push('ST,GS,+0000503.0 g\r\n'));
+    await expect.poll(() => page.locator('#w0').inputValue()).toBe('503');
     await page.close();
   });
 });

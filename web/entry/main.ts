@@ -120,6 +120,7 @@ async function openLine(): Promise<void> {
   buildForm();
   show('entry');
   state.inputs[0]?.focus();
+  scale.lineReady();
 }
 
 // ------------------------------------------------------------------ running or stopped
@@ -429,7 +430,7 @@ void start();
 
 // ------------------------------------------------------------------ a serial scale (Web Serial)
 
-setUpScale($<HTMLButtonElement>('connect-scale'), {
+const scale = setUpScale($<HTMLButtonElement>('connect-scale'), {
   current: () => (state.product && state.scale && !$('entry').classList.contains('hidden') ? { profile: state.scale, unit: state.product.unit } : null),
   onWeight(value) {
     const input = state.inputs.find((i) => i.value.trim() === '');

@@ -31,16 +31,25 @@ const serial = (navigator as Navigator & { serial?: SerialLike }).serial;
 /** True where the browser can talk to a serial port at all. */
 export const canUseSerial = serial !== undefined;
 
-/** Connects the page to the scale; `button` asks for a port, and a remembered one opens by itself. */
-export function setUpScale(button: HTMLButtonElement, hooks: ScaleHooks): void {
-  if (!serial) return;
+/**
+ * Connects the page to the scale; `button` asks for a port, and a remembered one opens by itself.
+ * Call the answer's `lineReady` once the line's profile is known: a port granted before waits for it.
+ */
+export function setUpScale(button: HTMLButtonElement, hooks: ScaleHooks): { lineReady(): void } {
+  if (!serial) return { lineReady: () => undefined };
   button.classList.remove('hidden');
   let port: SerialPortLike | null = null;
+  let waiting: SerialPortLike | null = null;
   let reading = false;
 
   const read = async (p: SerialPortLike) => {
     const now = hooks.current();
-    if (!now || reading) return;
+    if (reading) return;
+    if (!now) {
+      waiting = p; // no line open yet: opened by lineReady()
+      return;
+    }
+    waiting = null;
     const { profile } = now;
     try {
       await p.open({ baudRate: profile.baudRate, dataBits: profile.dataBits, stopBits: profile.stopBits, parity: profile.parity });
@@ -109,4 +118,9 @@ export function setUpScale(button: HTMLButtonElement, hooks: ScaleHooks): void {
   void serial.getPorts().then((ports) => {
     if (ports[0]) void read(ports[0]);
   });
+  return {
+    lineReady() {
+      if (waiting) void read(waiting);
+    },
+  };
 }
