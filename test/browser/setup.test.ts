@@ -162,4 +162,26 @@ describe.skipIf(!HAVE_CHROMIUM)('plant set-up in the browser', () => {
     await page.locator('#scales').screenshot({ path: `${ARTIFACTS}setup-scales.png` });
     await page.close();
   });
+
+  it('when the admin adds a line and changes it over, then the page says what a changeover restarts and the line runs the product', async () => {
+    const page = await setupAs('admin');
+    await page.getByLabel('Line code').fill('L9');
+    await page.getByLabel('Line name').fill('Line 9 — trial');
+    await page.locator('#line-form button[type="submit"]').click();
+    const row = page.locator('#lines-table tr[data-line="L9"]');
+    await expect.poll(() => row.innerText()).toMatch(/L9\s+Line 9 — trial\s+no product/);
+    let asked = '';
+    page.once('dialog', (d) => {
+      asked = d.message();
+      void d.accept();
+    });
+    await row.locator('select').selectOption({ label: 'P-L1 — Test bag 500 g' });
+    await row.getByRole('button', { name: 'Change over' }).click();
+    await expect.poll(() => row.innerText()).toMatch(/P-L1/);
+    expect(asked).toMatch(/starts a new run: the detectors and the rolling window start again/);
+    const lines = (await t.app.inject({ method: 'GET', url: '/api/lines', headers: { cookie: t.cookies.operator } })).json().lines as { code: string; product: { code: string } | null }[];
+    expect(lines.find((l) => l.code === 'L9')?.product?.code).toBe('P-L1');
+    await page.locator('#lines').screenshot({ path: `${ARTIFACTS}setup-lines.png` });
+    await page.close();
+  });
 });

@@ -6,6 +6,7 @@ import { el, weight } from '../shared/format.js';
 import type { ProductPreview } from '../../server/products/contract.js';
 import type { TokenView, UserView } from '../../server/auth/contract.js';
 import { setUpScales } from './scales.js';
+import { renderLines } from './lines.js';
 
 const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as T;
 const state: { user: User | null; products: Product[]; lines: Line[]; editing: Product | null } = { user: null, products: [], lines: [], editing: null };
@@ -77,6 +78,7 @@ async function loadProducts(): Promise<void> {
   state.products = products.products;
   state.lines = lines.lines;
   renderProducts();
+  renderLines(state.lines, state.products, state.user?.role === 'admin', loadProducts, problem);
 }
 
 /** Where a product runs now, and since when: "L1 since 3 Dec 06:00". */

@@ -1,0 +1,54 @@
+import { api, ApiError, type Line, type Product } from '../shared/api.js';
+import { el } from '../shared/format.js';
+
+/*
+ * The Lines part of set-up: each line with the product it runs and since when; the admin makes and
+ * renames lines; a changeover asks for the new product and says what it restarts.
+ */
+
+const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as T;
+const since = (iso: string | null) => (iso ? new Date(iso).toLocaleString('en-GB', { dateStyle: 'medium', timeStyle: 'short' }) : '—');
+
+/** Draws the lines; `reload` fetches lines and products again after a change. */
+export function renderLines(lines: Line[], products: Product[], isAdmin: boolean, reload: () => Promise<void>, problem: (text: string | null) => void): void {
+  $('lines-table').querySelector('tbody')?.replaceChildren(
+    ...lines.map((l) => {
+      const pick = el('select', { id: `co-${l.id}`, 'aria-label': `New product for ${l.code}` }, ...products.map((p) => el('option', { value: String(p.id) }, `${p.code} — ${p.name}`)));
+      if (l.product) pick.value = String(l.product.id);
+      const change = el('button', { type: 'button' }, 'Change over');
+      change.addEventListener('click', async () => {
+        const chosen = products.find((p) => p.id === Number(pick.value));
+        if (!chosen) return;
+        const ok = window.confirm(`Change ${l.code} over to ${chosen.code}? This starts a new run: the detectors and the rolling window start again, and the next check is due one sampling interval (${chosen.samplingMinutes} min) from now.`);
+        if (!ok) return;
+        try {
+          await api('PUT', `/api/lines/${l.id}/product`, { productId: chosen.id });
+          problem(null);
+          await reload();
+        } catch (err) {
+          problem(err instanceof ApiError ? (err.body?.message ?? err.message) : 'The server cannot be reached.');
+        }
+      });
+      const state = l.running ? 'running' : `stopped (${l.stop?.reason ?? '?'})`;
+      return el('tr', { 'data-line': l.code }, el('td', {}, l.code), el('td', {}, l.name), el('td', {}, l.product ? l.product.code : 'no product'), el('td', {}, since(l.runStartedAt)), el('td', {}, state), el('td', {}, pick, ' ', change));
+    }),
+  );
+  $('line-form').classList.toggle('hidden', !isAdmin);
+  $<HTMLFormElement>('line-form').onsubmit = async (e) => {
+    e.preventDefault();
+    for (const s of document.querySelectorAll<HTMLElement>('[id^="ln-"][id$="-error"]')) s.textContent = '';
+    const perHour = $<HTMLInputElement>('ln-packsPerHour').value.trim();
+    try {
+      await api('POST', '/api/lines', { code: $<HTMLInputElement>('ln-code').value.trim(), name: $<HTMLInputElement>('ln-name').value.trim(), packsPerHour: perHour === '' ? null : Number(perHour), continuous: $<HTMLInputElement>('ln-continuous').checked });
+      $('line-saved').textContent = `Added ${$<HTMLInputElement>('ln-code').value.trim()}.`;
+      await reload();
+    } catch (err) {
+      const issues = err instanceof ApiError ? (err.body?.issues ?? []) : [];
+      for (const i of issues) {
+        const slot = document.getElementById(`ln-${i.field}-error`);
+        if (slot) slot.textContent = i.message;
+      }
+      if (issues.length === 0) problem(err instanceof ApiError ? (err.body?.message ?? err.message) : 'The server cannot be reached.');
+    }
+  };
+}
