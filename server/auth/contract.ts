@@ -29,6 +29,7 @@ export const userViewSchema = z.strictObject({
   role,
   disabled: z.boolean(),
   locked: z.boolean(),
+  lastSignInAt: instantOrNull,
 });
 export type UserView = z.output<typeof userViewSchema>;
 
@@ -49,6 +50,7 @@ export const tokenViewSchema = z.strictObject({
   createdBy: z.string(),
   createdAt: instant,
   revokedAt: instantOrNull,
+  lastUsedAt: instantOrNull,
 });
 export type TokenView = z.output<typeof tokenViewSchema>;
 

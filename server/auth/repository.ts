@@ -9,6 +9,7 @@ export interface User {
   disabled: boolean;
   failedAttempts: number;
   lockedUntil: number | null;
+  lastSignInAt: number | null;
 }
 
 export interface UserSecret {
@@ -34,6 +35,7 @@ export interface MachineToken {
   createdBy: string;
   createdAt: number;
   revokedAt: number | null;
+  lastUsedAt: number | null;
 }
 
 interface UserRow {
@@ -46,6 +48,7 @@ interface UserRow {
   disabled: number;
   failed_attempts: number;
   locked_until: number | null;
+  last_sign_in_at: number | null;
 }
 
 interface TokenRow {
@@ -56,6 +59,7 @@ interface TokenRow {
   created_by: string;
   created_at: number;
   revoked_at: number | null;
+  last_used_at: number | null;
 }
 
 const toUser = (r: UserRow): User => ({
@@ -66,6 +70,7 @@ const toUser = (r: UserRow): User => ({
   disabled: r.disabled === 1,
   failedAttempts: r.failed_attempts,
   lockedUntil: r.locked_until,
+  lastSignInAt: r.last_sign_in_at,
 });
 
 const toToken = (r: TokenRow): MachineToken => ({
@@ -76,6 +81,7 @@ const toToken = (r: TokenRow): MachineToken => ({
   createdBy: r.created_by,
   createdAt: r.created_at,
   revokedAt: r.revoked_at,
+  lastUsedAt: r.last_used_at,
 });
 
 export function createAuthRepository(db: Db) {
@@ -93,6 +99,7 @@ export function createAuthRepository(db: Db) {
   const insertSession = db.prepare(
     'INSERT INTO sessions (id_hash, user_id, created_at, last_seen_at) VALUES (@idHash, @userId, @at, @at)',
   );
+  const markSignIn = db.prepare('UPDATE users SET last_sign_in_at = @at WHERE id = @userId');
   const sessionByHash = db.prepare('SELECT * FROM sessions WHERE id_hash = ?');
   const touchSession = db.prepare('UPDATE sessions SET last_seen_at = @at WHERE id_hash = @idHash');
   const endSession = db.prepare('UPDATE sessions SET ended_at = @at WHERE id_hash = @idHash AND ended_at IS NULL');
@@ -108,6 +115,7 @@ export function createAuthRepository(db: Db) {
   const tokenByHash = db.prepare('SELECT * FROM tokens WHERE token_hash = ? AND revoked_at IS NULL');
   const tokenById = db.prepare('SELECT * FROM tokens WHERE id = ?');
   const tokens = db.prepare('SELECT * FROM tokens ORDER BY id');
+  const touchToken = db.prepare('UPDATE tokens SET last_used_at = @at WHERE id = @id');
   const revokeToken = db.prepare('UPDATE tokens SET revoked_at = @at WHERE id = @id AND revoked_at IS NULL');
 
   return {
@@ -143,6 +151,7 @@ export function createAuthRepository(db: Db) {
     },
     startSession(idHash: string, userId: number, at: number): void {
       insertSession.run({ idHash, userId, at });
+      markSignIn.run({ userId, at });
     },
     session(idHash: string): Session | null {
       const r = sessionByHash.get(idHash) as
@@ -173,6 +182,9 @@ export function createAuthRepository(db: Db) {
     },
     tokens(): MachineToken[] {
       return (tokens.all() as TokenRow[]).map(toToken);
+    },
+    touchToken(id: number, at: number): void {
+      touchToken.run({ id, at });
     },
     revokeToken(id: number, at: number): boolean {
       return revokeToken.run({ id, at }).changes === 1;

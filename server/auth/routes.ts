@@ -36,8 +36,9 @@ const userView = (u: User, lockedNames: ReadonlySet<string>): UserView => ({
   role: u.role,
   disabled: u.disabled,
   locked: lockedNames.has(u.username.toLowerCase()),
+  lastSignInAt: toIso(u.lastSignInAt),
 });
-const tokenView = (t: MachineToken): TokenView => ({ id: t.id, name: t.name, kind: t.kind, lineIds: t.lineIds, createdBy: t.createdBy, createdAt: toIso(t.createdAt), revokedAt: toIso(t.revokedAt) });
+const tokenView = (t: MachineToken): TokenView => ({ id: t.id, name: t.name, kind: t.kind, lineIds: t.lineIds, createdBy: t.createdBy, createdAt: toIso(t.createdAt), revokedAt: toIso(t.revokedAt), lastUsedAt: toIso(t.lastUsedAt) });
 
 export const authPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fastify, { ctx }) => {
   const app = fastify.withTypeProvider<ZodTypeProvider>();

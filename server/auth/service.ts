@@ -142,6 +142,9 @@ export function createAuthService(o: AuthServiceOptions) {
 
     tokenActor(token: string): Actor | null {
       const found = repo.activeTokenByHash(tokenHash(token));
+      const now = clock.now();
+      // the set-up page's "last use", to the minute: a write per minute at most, not one per check
+      if (found && now - (found.lastUsedAt ?? 0) > 60_000) repo.touchToken(found.id, now);
       return found ? { kind: 'token', tokenId: found.id, name: found.name, tokenKind: found.kind, lineIds: found.lineIds } : null;
     },
 

@@ -5,9 +5,12 @@ import { freeText, isoTime } from '../shared/schemas.js';
 /** What the limits routes take and answer (API.md, "Limits"). */
 
 export const sigmaMethod = z.enum(['rbar', 'sbar', 'pooled', 'mrbar']);
-export const baselineBody = z.strictObject({ from: isoTime, to: isoTime, method: sigmaMethod.optional() });
+/** A baseline check left out of the estimate, and why (a known upset, a trial run …). */
+const exclusion = z.strictObject({ checkId: z.number().int().positive(), reason: freeText(200) });
+const exclusions = z.array(exclusion).max(1000);
+export const baselineBody = z.strictObject({ from: isoTime, to: isoTime, method: sigmaMethod.optional(), exclude: exclusions.optional() });
 export const approveBody = z.discriminatedUnion('basis', [
-  z.strictObject({ basis: z.literal('baseline'), from: isoTime, to: isoTime, method: sigmaMethod.optional(), note: freeText(500).optional() }),
+  z.strictObject({ basis: z.literal('baseline'), from: isoTime, to: isoTime, method: sigmaMethod.optional(), exclude: exclusions.optional(), note: freeText(500).optional() }),
   z.strictObject({ basis: z.literal('standard'), centre: z.number().finite().positive(), sigma: z.number().finite().positive(), note: freeText(500).optional() }),
 ]);
 export type ApproveBody = z.output<typeof approveBody>;
@@ -26,6 +29,7 @@ export const limitsVersionSchema = z.strictObject({
   approvedBy: z.string(),
   approvedAt: instant,
   note: z.string().nullable(),
+  excluded: z.array(z.strictObject({ checkId: z.number(), reason: z.string() })),
 });
 export type LimitsVersionView = z.output<typeof limitsVersionSchema>;
 
@@ -42,6 +46,10 @@ export const proposalSchema = z.strictObject({
   packs: z.number(),
   meanChart: meanChartLimits,
   spreadChart: spreadChartLimits,
+  /** Every check of the baseline, for a chart: `excludedReason` set on those left out. */
+  points: z.array(
+    z.strictObject({ checkId: z.number(), takenAt: instant, n: z.number(), mean: z.number(), sd: z.number().nullable(), range: z.number(), excludedReason: z.string().nullable() }),
+  ),
   breaking: z.array(
     z.strictObject({ checkId: z.number(), takenAt: instant, mean: z.number(), sd: z.number().nullable(), range: z.number(), reasons: z.array(z.string()) }),
   ),

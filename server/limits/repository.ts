@@ -17,6 +17,13 @@ export interface LimitsVersion {
   approvedBy: string;
   approvedAt: number;
   note: string | null;
+  /** Baseline checks left out of the estimate, each with its reason. */
+  excluded: Exclusion[];
+}
+
+export interface Exclusion {
+  checkId: number;
+  reason: string;
 }
 
 interface Row {
@@ -32,6 +39,7 @@ interface Row {
   approved_by: string;
   approved_at: number;
   note: string | null;
+  excluded: string;
 }
 
 const toVersion = (r: Row): LimitsVersion => ({
@@ -47,6 +55,7 @@ const toVersion = (r: Row): LimitsVersion => ({
   approvedBy: r.approved_by,
   approvedAt: r.approved_at,
   note: r.note,
+  excluded: JSON.parse(r.excluded) as Exclusion[],
 });
 
 export function createLimitsRepository(db: Db) {
@@ -57,9 +66,9 @@ export function createLimitsRepository(db: Db) {
   const approvedDuring = db.prepare('SELECT approved_at AS at FROM limit_versions WHERE line_id = ? AND product_id = ? AND approved_at > ? AND approved_at < ? ORDER BY approved_at');
   const insert = db.prepare(
     `INSERT INTO limit_versions (line_id, product_id, centre, sigma, method, baseline_from, baseline_to, baseline_checks,
-       approved_by, approved_at, note)
+       approved_by, approved_at, note, excluded)
      VALUES (@lineId, @productId, @centre, @sigma, @method, @baselineFrom, @baselineTo, @baselineChecks, @approvedBy,
-       @approvedAt, @note)`,
+       @approvedAt, @note, @excluded)`,
   );
   return {
     latest(lineId: number, productId: number): LimitsVersion | null {
@@ -83,7 +92,7 @@ export function createLimitsRepository(db: Db) {
       return (history.all(lineId) as Row[]).map(toVersion);
     },
     insert(v: Omit<LimitsVersion, 'id'>): LimitsVersion {
-      const id = Number(insert.run(v).lastInsertRowid);
+      const id = Number(insert.run({ ...v, excluded: JSON.stringify(v.excluded) }).lastInsertRowid);
       return { ...v, id };
     },
   };

@@ -21,7 +21,7 @@ export const limitsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
   app.post(
     '/api/lines/:lineId/limits/proposal',
     { config: { roles: QUALITY_UP }, schema: { params: lineParams, body: baselineBody, response: { 200: proposalAnswer } } },
-    async (req) => ({ proposal: limits.propose(req.params.lineId, req.body.from, req.body.to, req.body.method) }),
+    async (req) => ({ proposal: limits.propose(req.params.lineId, req.body.from, req.body.to, req.body.method, req.body.exclude) }),
   );
 
   app.post(

@@ -3,7 +3,7 @@ import { toIso } from '../clock.js';
 import { conflict, DomainError } from '../errors.js';
 import { defaultSigmaMethod, estimateSigma, meanChartLimits, spreadChartLimits, type SigmaMethod } from '../stats/control-limits.js';
 import type { ApproveBody, LimitsVersionView, Proposal } from './contract.js';
-import type { LimitsVersion } from './repository.js';
+import type { Exclusion, LimitsVersion } from './repository.js';
 
 export const MIN_BASELINE_CHECKS = 20;
 
@@ -20,20 +20,37 @@ export const versionView = (v: LimitsVersion): LimitsVersionView => ({
   approvedBy: v.approvedBy,
   approvedAt: toIso(v.approvedAt),
   note: v.note,
+  excluded: v.excluded,
 });
+
+/** The reasons by check id; a check not in the baseline, or named twice, is a 400 naming its place in `exclude`. */
+function excludedReasons(baseline: readonly { id: number }[], exclude: readonly Exclusion[]): Map<number, string> {
+  const ids = new Set(baseline.map((c) => c.id));
+  const reasons = new Map<number, string>();
+  exclude.forEach((x, i) => {
+    const field = `exclude.${i}.checkId`;
+    if (!ids.has(x.checkId)) throw new DomainError(400, 'bad-request', `${field}: check ${x.checkId} is not in the baseline`, [{ field, message: `check ${x.checkId} is not in the baseline` }]);
+    if (reasons.has(x.checkId)) throw new DomainError(400, 'bad-request', `${field}: check ${x.checkId} is left out twice`, [{ field, message: `check ${x.checkId} is left out twice` }]);
+    reasons.set(x.checkId, x.reason);
+  });
+  return reasons;
+}
 
 /** Proposing limits from a baseline and approving a version: the version, its audit row and its live message in one transaction. */
 export function createLimitsService(ctx: Pick<HeftContext, 'db' | 'clock' | 'repos' | 'monitor'>) {
   const { repos, monitor, clock, db } = ctx;
 
   /** Limits estimated from the running product's checks between from and to, with the baseline points that break them. */
-  function propose(lineId: number, from: number, to: number, requested?: SigmaMethod): Proposal {
+  function propose(lineId: number, from: number, to: number, requested?: SigmaMethod, exclude: readonly Exclusion[] = []): Proposal {
     const { run, product } = monitor.lineState(lineId);
     if (!run || !product) throw conflict('no product is running on this line');
     if (to <= from) throw new DomainError(400, 'bad-request', 'to: must be after from', [{ field: 'to', message: 'must be after from' }]);
-    const baseline = repos.checks.inRunBetween(run.id, from, to);
+    const all = repos.checks.inRunBetween(run.id, from, to);
+    const reasonOf = excludedReasons(all, exclude);
+    const baseline = all.filter((c) => !reasonOf.has(c.id));
     if (baseline.length < MIN_BASELINE_CHECKS) {
-      throw new DomainError(422, 'baseline-too-small', `the baseline holds ${baseline.length} checks of the running product; at least ${MIN_BASELINE_CHECKS} are needed`);
+      const left = reasonOf.size > 0 ? ` after ${reasonOf.size} left out` : '';
+      throw new DomainError(422, 'baseline-too-small', `the baseline holds ${baseline.length} checks of the running product${left}; at least ${MIN_BASELINE_CHECKS} are needed`);
     }
     const chosen = requested ?? defaultSigmaMethod(product.subgroupSize);
     if (chosen !== 'mrbar' && baseline.every((c) => c.n < 2)) throw new DomainError(422, 'wrong-method', `${chosen} needs checks of two or more packs; use mrbar for individuals`);
@@ -61,6 +78,7 @@ export function createLimitsService(ctx: Pick<HeftContext, 'db' | 'clock' | 'rep
       packs: estimate.packs,
       meanChart: meanChartLimits(model, product.subgroupSize),
       spreadChart: spreadChartLimits(model.sigma, product.subgroupSize),
+      points: all.map((c) => ({ checkId: c.id, takenAt: toIso(c.takenAt), n: c.n, mean: c.mean, sd: c.sd, range: c.range, excludedReason: reasonOf.get(c.id) ?? null })),
       breaking,
     };
   }
@@ -75,10 +93,11 @@ export function createLimitsService(ctx: Pick<HeftContext, 'db' | 'clock' | 'rep
       const fields =
         body.basis === 'baseline'
           ? (() => {
-              const p = propose(lineId, body.from, body.to, body.method);
-              return { centre: p.centre, sigma: p.sigma, method: p.method, baselineFrom: body.from, baselineTo: body.to, baselineChecks: p.checks };
+              const excluded = body.exclude ?? [];
+              const p = propose(lineId, body.from, body.to, body.method, excluded);
+              return { centre: p.centre, sigma: p.sigma, method: p.method, baselineFrom: body.from, baselineTo: body.to, baselineChecks: p.checks, excluded };
             })()
-          : { centre: body.centre, sigma: body.sigma, method: 'standard' as const, baselineFrom: null, baselineTo: null, baselineChecks: null };
+          : { centre: body.centre, sigma: body.sigma, method: 'standard' as const, baselineFrom: null, baselineTo: null, baselineChecks: null, excluded: [] };
       const now = clock.now();
       const { version, changed } = db.transaction(() => {
         const v = repos.limits.insert({ lineId, productId: product.id, ...fields, approvedBy: actor, approvedAt: now, note: body.note ?? null });

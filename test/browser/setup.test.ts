@@ -2,7 +2,8 @@ import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type { BrowserContext, Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { countRows, SECRETS, type TestApp } from '../helpers.js';
+import { isoToWallTime } from '../../web/shared/format.js';
+import { countRows, postCheck, SECRETS, weightsWithMean, type TestApp } from '../helpers.js';
 import { ARTIFACTS, HAVE_CHROMIUM, startPageApp, type PageApp } from './harness.js';
 
 let t: TestApp;
@@ -182,6 +183,47 @@ describe.skipIf(!HAVE_CHROMIUM)('plant set-up in the browser', () => {
     const lines = (await t.app.inject({ method: 'GET', url: '/api/lines', headers: { cookie: t.cookies.operator } })).json().lines as { code: string; product: { code: string } | null }[];
     expect(lines.find((l) => l.code === 'L9')?.product?.code).toBe('P-L1');
     await page.locator('#lines').screenshot({ path: `${ARTIFACTS}setup-lines.png` });
+    await page.close();
+  });
+
+  it('when the quality manager proposes limits from a baseline, then the check that breaks them is marked and listed; left out with a reason and approved, the version is in force for the next check', async () => {
+    const { timeZone } = (await t.app.inject({ method: 'GET', url: '/api/plant', headers: { cookie: t.cookies.operator } })).json().plant as { timeZone: string };
+    const started = Date.now();
+    // a steady baseline with one check well above it (means 503 ± 0.6 g; the odd one 511 g)
+    const means = Array.from({ length: 24 }, (_, i) => 503 + [0.6, -0.4, 0.2, -0.6, 0.4, 0, -0.2, 0.3][i % 8]!);
+    means[10] = 511;
+    for (const mean of means) expect((await postCheck(t, lineId, weightsWithMean(mean))).statusCode).toBe(201);
+    const page = await setupAs('quality');
+    const limits = page.locator('#limits');
+    await limits.getByLabel('Line', { exact: true }).selectOption({ label: 'L1 — Line L1 (P-L1)' });
+    await limits.getByLabel('Baseline from').fill(isoToWallTime(new Date(started - 10 * 60_000).toISOString(), timeZone));
+    await limits.getByLabel('Baseline to').fill(isoToWallTime(new Date(Date.now() + 2 * 60_000).toISOString(), timeZone));
+    await limits.getByRole('button', { name: 'Propose limits' }).click();
+    const breaking = page.locator('#lm-breaking tbody tr[data-check]');
+    await expect.poll(() => breaking.count()).toBe(1);
+    expect(await breaking.innerText()).toMatch(/511\.0 g\s+mean above the upper limit/);
+    expect(await page.locator('#lm-summary').innerText()).toMatch(/Baseline\s+24 checks, 120 packs/);
+    expect(await page.locator('#lm-chart canvas').count()).toBeGreaterThan(0);
+    await page.locator('#limits').screenshot({ path: `${ARTIFACTS}setup-limits.png` });
+    // leaving it out without a reason is refused in words; with one, the proposal is made again without it
+    await breaking.getByRole('button', { name: 'Leave out' }).click();
+    await expect.poll(() => page.locator('#lm-problem').innerText()).toMatch(/Give a reason/);
+    await breaking.getByLabel('Reason').fill('scale knocked during a clean');
+    await breaking.getByRole('button', { name: 'Leave out' }).click();
+    await expect.poll(() => page.locator('#lm-summary').innerText()).toMatch(/23 checks, 115 packs; 1 left out/);
+    expect(await page.locator('#lm-excluded').innerText()).toMatch(/scale knocked during a clean/);
+    expect(await breaking.count()).toBe(0);
+    await limits.getByLabel('Note for the approval').fill('first baseline after the new film');
+    await limits.getByRole('button', { name: 'Approve' }).click();
+    const inForce = page.locator('#lm-versions tr.in-force');
+    await expect.poll(() => inForce.innerText().catch(() => '')).toMatch(/in force[\s\S]*quality[\s\S]*rbar[\s\S]*23 checks, 1 left out \(scale knocked during a clean\)[\s\S]*first baseline after the new film/);
+    const versions = (await t.app.inject({ method: 'GET', url: `/api/lines/${lineId}/limits`, headers: { cookie: t.cookies.operator } })).json().limits as { id: number; baselineChecks: number; excluded: { checkId: number; reason: string }[] }[];
+    const approved = versions.at(-1);
+    expect([approved?.baselineChecks, approved?.excluded.map((x) => x.reason)]).toEqual([23, ['scale knocked during a clean']]);
+    const next = await postCheck(t, lineId, weightsWithMean(503));
+    expect(next.json().check.limitsVersionId).toBe(approved?.id);
+    const audit = (await t.app.inject({ method: 'GET', url: '/api/audit?entity=line', headers: { cookie: t.cookies.admin } })).json().entries as { action: string; actor: string }[];
+    expect(audit.filter((e) => e.action === 'limits.approve').map((e) => e.actor)).toEqual(['quality']);
     await page.close();
   });
 });

@@ -9,6 +9,27 @@ import { el } from '../shared/format.js';
 const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as T;
 const since = (iso: string | null) => (iso ? new Date(iso).toLocaleString('en-GB', { dateStyle: 'medium', timeStyle: 'short' }) : '—');
 
+/** A small form in the name's cell: the new name, saved through PATCH /api/lines/:id (audited there). */
+function renameForm(l: Line, cell: HTMLElement, reload: () => Promise<void>, problem: (text: string | null) => void): void {
+  const input = el('input', { id: `rename-${l.id}`, value: l.name });
+  const error = el('span', { class: 'field-error', id: `rename-${l.id}-error` });
+  const form = el('form', { class: 'reset' }, el('label', { for: input.id }, `New name for ${l.code}`), input, el('button', { type: 'submit', class: 'primary' }, 'Save'), error);
+  form.addEventListener('submit', async (e) => {
+    e.preventDefault();
+    try {
+      await api('PATCH', `/api/lines/${l.id}`, { name: input.value.trim() });
+      problem(null);
+      await reload();
+    } catch (err) {
+      const issue = err instanceof ApiError ? err.body?.issues?.find((i) => i.field === 'name') : undefined;
+      if (issue) error.textContent = issue.message;
+      else problem(err instanceof ApiError ? (err.body?.message ?? err.message) : 'The server cannot be reached.');
+    }
+  });
+  cell.replaceChildren(form);
+  input.focus();
+}
+
 /** Draws the lines; `reload` fetches lines and products again after a change. */
 export function renderLines(lines: Line[], products: Product[], isAdmin: boolean, reload: () => Promise<void>, problem: (text: string | null) => void): void {
   $('lines-table').querySelector('tbody')?.replaceChildren(
@@ -30,7 +51,13 @@ export function renderLines(lines: Line[], products: Product[], isAdmin: boolean
         }
       });
       const state = l.running ? 'running' : `stopped (${l.stop?.reason ?? '?'})`;
-      return el('tr', { 'data-line': l.code }, el('td', {}, l.code), el('td', {}, l.name), el('td', {}, l.product ? l.product.code : 'no product'), el('td', {}, since(l.runStartedAt)), el('td', {}, state), el('td', {}, pick, ' ', change));
+      const nameCell = el('td', {}, l.name);
+      if (isAdmin) {
+        const rename = el('button', { type: 'button', class: 'small' }, 'Rename');
+        rename.addEventListener('click', () => renameForm(l, nameCell, reload, problem));
+        nameCell.append(' ', rename);
+      }
+      return el('tr', { 'data-line': l.code }, el('td', {}, l.code), nameCell, el('td', {}, l.product ? l.product.code : 'no product'), el('td', {}, since(l.runStartedAt)), el('td', {}, state), el('td', {}, pick, ' ', change));
     }),
   );
   $('line-form').classList.toggle('hidden', !isAdmin);

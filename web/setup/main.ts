@@ -1,15 +1,16 @@
 import '../shared/base.css';
 import './setup.css';
 import QRCode from 'qrcode';
-import { api, ApiError, getPlant, signIn, whoAmI, type Line, type Product, type User } from '../shared/api.js';
+import { api, ApiError, getPlant, signIn, whoAmI, type Line, type Plant, type Product, type User } from '../shared/api.js';
 import { el, weight } from '../shared/format.js';
 import type { ProductPreview } from '../../server/products/contract.js';
 import type { TokenView, UserView } from '../../server/auth/contract.js';
 import { setUpScales } from './scales.js';
 import { renderLines } from './lines.js';
+import { setUpLimits } from './limits.js';
 
 const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as T;
-const state: { user: User | null; products: Product[]; lines: Line[]; editing: Product | null } = { user: null, products: [], lines: [], editing: null };
+const state: { user: User | null; plant: Plant; products: Product[]; lines: Line[]; editing: Product | null } = { user: null, plant: { name: 'Heft', timeZone: 'UTC' }, products: [], lines: [], editing: null };
 
 function problem(text: string | null): void {
   $('problem').textContent = text ?? '';
@@ -36,7 +37,8 @@ function showFieldErrors(prefix: string, err: unknown): void {
 // ------------------------------------------------------------------ sign-in and the role gate
 
 async function start(): Promise<void> {
-  const plant = await getPlant().catch(() => ({ name: 'Heft', timeZone: 'UTC' }));
+  const plant = await getPlant().catch(() => state.plant);
+  state.plant = plant;
   $('plant').textContent = plant.name;
   state.user = await whoAmI().catch(() => null);
   const user = state.user;
@@ -79,6 +81,7 @@ async function loadProducts(): Promise<void> {
   state.lines = lines.lines;
   renderProducts();
   renderLines(state.lines, state.products, state.user?.role === 'admin', loadProducts, problem);
+  await setUpLimits(state.plant, state.lines);
 }
 
 /** Where a product runs now, and since when: "L1 since 3 Dec 06:00". */
@@ -212,6 +215,9 @@ $<HTMLFormElement>('import-form').addEventListener('submit', async (e) => {
 
 // ------------------------------------------------------------------ people
 
+/** A time as the plant reads it ("3 Dec 2026, 14:05"), or the words for none. */
+const when = (iso: string | null, none: string) => (iso ? new Date(iso).toLocaleString('en-GB', { dateStyle: 'medium', timeStyle: 'short' }) : none);
+
 async function loadPeople(): Promise<void> {
   const { users } = await api<{ users: UserView[] }>('GET', '/api/users');
   $('people-table').querySelector('tbody')?.replaceChildren(
@@ -220,7 +226,7 @@ async function loadPeople(): Promise<void> {
       toggle.addEventListener('click', () => void patchUser(u.id, { disabled: !u.disabled }));
       const reset = el('button', { type: 'button' }, 'Reset PIN or password');
       reset.addEventListener('click', () => resetSecret(u, reset));
-      return el('tr', { 'data-username': u.username }, el('td', {}, u.username), el('td', {}, u.displayName), el('td', {}, u.role), el('td', {}, u.disabled ? 'disabled' : u.locked ? 'locked (wrong sign-ins)' : 'active'), el('td', {}, toggle, ' ', reset));
+      return el('tr', { 'data-username': u.username }, el('td', {}, u.username), el('td', {}, u.displayName), el('td', {}, u.role), el('td', {}, u.disabled ? 'disabled' : u.locked ? 'locked (wrong sign-ins)' : 'active'), el('td', {}, when(u.lastSignInAt, 'never')), el('td', {}, toggle, ' ', reset));
     }),
   );
 }
@@ -281,7 +287,7 @@ async function loadTokens(): Promise<void> {
         await api('DELETE', `/api/tokens/${t.id}`).catch((err) => problem(messageOf(err)));
         await loadTokens();
       });
-      return el('tr', { 'data-token': t.name }, el('td', {}, t.name), el('td', {}, t.kind), el('td', {}, t.lineIds.map(lineCode).join(', ') || '—'), el('td', {}, `${new Date(t.createdAt).toLocaleString('en-GB', { dateStyle: 'medium', timeStyle: 'short' })} by ${t.createdBy}`), el('td', {}, t.revokedAt ? 'revoked' : 'active'), el('td', {}, t.revokedAt ? '' : revoke));
+      return el('tr', { 'data-token': t.name }, el('td', {}, t.name), el('td', {}, t.kind), el('td', {}, t.lineIds.map(lineCode).join(', ') || '—'), el('td', {}, `${new Date(t.createdAt).toLocaleString('en-GB', { dateStyle: 'medium', timeStyle: 'short' })} by ${t.createdBy}`), el('td', {}, t.revokedAt ? 'revoked' : 'active'), el('td', {}, when(t.lastUsedAt, 'not yet used')), el('td', {}, t.revokedAt ? '' : revoke));
     }),
   );
   $('tk-lines').replaceChildren(el('legend', {}, 'Lines it may post checks to'), ...state.lines.map((l) => el('label', {}, el('input', { type: 'checkbox', value: String(l.id) }), ` ${l.code}`)));
