@@ -1,7 +1,7 @@
 import { z } from 'zod';
 import { alertSummarySchema, alertViewSchema, checkSignalViewSchema } from '../alerts/contract.js';
 import { productViewSchema } from '../products/contract.js';
-import { inference, instant, instantOrNull, lineStatus, meanChartLimits, sampleSummary, spreadChartLimits, lineStopSchema } from '../shared/contract.js';
+import { falseAlarmSchema, inference, instant, instantOrNull, lineStatus, meanChartLimits, sampleSummary, spreadChartLimits, lineStopSchema } from '../shared/contract.js';
 import { freeText, isoTime, rangeQuery } from '../shared/schemas.js';
 import { CHECK_SOURCES } from './repository.js';
 
@@ -83,14 +83,6 @@ export const limitsInForce = z.strictObject({
   spreadChart: spreadChartLimits,
 });
 
-/** How often the enabled rules would fire on an in-control process, by simulation. */
-export const falseAlarmSchema = z.strictObject({
-  arlChecks: z.number(),
-  standardError: z.number(),
-  intervalMinutes: z.number(),
-  words: z.string(),
-  method: z.string(),
-});
 
 /** Where a line stands now: what the board and the entry page show. */
 export const statusViewSchema = z.strictObject({

@@ -1,6 +1,6 @@
 import { z } from 'zod';
 import { code, freeText, idParam } from '../shared/schemas.js';
-import { instant, unit } from '../shared/contract.js';
+import { falseAlarmSchema, instant, unit } from '../shared/contract.js';
 import { RULE_CATALOGUE, type RuleId } from '../stats/rules.js';
 
 /** What the products routes take and answer (API.md, "Product"). */
@@ -93,3 +93,20 @@ export const productPreviewSchema = z.strictObject({
 });
 export type ProductPreview = z.output<typeof productPreviewSchema>;
 export const productPreviewAnswer = z.strictObject({ preview: productPreviewSchema });
+
+/** A rule choice to judge before saving it: the false-alarm interval at this check size and interval. */
+export const falseAlarmBody = z.strictObject({
+  rules: ruleOverrides.optional(),
+  subgroupSize: z.number().int().min(1).max(50),
+  samplingMinutes: z.number().int().min(1).max(24 * 60),
+});
+/** `working`: the simulation runs between the server's other work, ask again; `busy`: too many at once, ask again shortly. */
+export const falseAlarmAnswer = z.strictObject({
+  falseAlarm: z.strictObject({
+    state: z.enum(['ready', 'working', 'busy']),
+    runsDone: z.number(),
+    runs: z.number(),
+    figure: falseAlarmSchema.nullable(),
+  }),
+});
+

@@ -7,12 +7,14 @@ import { lowestTarget } from '../stats/net-quantity.js';
 import { actorName } from '../auth/service.js';
 import type { HeftContext } from '../context.js';
 import { badField, notFound } from '../errors.js';
-import { productAnswer, productBody, productImportAnswer, productListAnswer, productPreviewAnswer, productPreviewBody, productParams, productPatch, productVersionsAnswer } from './contract.js';
+import { productAnswer, productBody, productImportAnswer, productListAnswer, productPreviewAnswer, productPreviewBody, falseAlarmAnswer, falseAlarmBody, productParams, productPatch, productVersionsAnswer } from './contract.js';
 import { productView } from './views.js';
 import type { Product } from './repository.js';
 import { toFields, type ProductInput } from './fields.js';
 import { importProducts } from './import.js';
 import { createProductService } from './service.js';
+import { falseAlarmProgress } from '../monitor/false-alarm-cache.js';
+import { resolveRuleSet } from '../stats/rule-set.js';
 
 export const productsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fastify, { ctx }) => {
   const app = fastify.withTypeProvider<ZodTypeProvider>();
@@ -56,6 +58,13 @@ export const productsPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (f
         lowestTarget: limits && s !== null ? lowestTarget(nominal, limits.t1, limits.t2, s) : null,
       },
     };
+  });
+
+  app.post('/api/products/false-alarm', { config: { roles: QUALITY_UP }, schema: { body: falseAlarmBody, response: { 200: falseAlarmAnswer, 202: falseAlarmAnswer } } }, async (req, reply) => {
+    const progress = falseAlarmProgress(resolveRuleSet(req.body.rules), req.body.subgroupSize, req.body.samplingMinutes);
+    if (progress.state === 'ready') return { falseAlarm: { state: 'ready' as const, runsDone: progress.runs, runs: progress.runs, figure: progress.figure } };
+    const runsDone = progress.state === 'working' ? progress.runsDone : 0;
+    return reply.code(202).send({ falseAlarm: { state: progress.state, runsDone, runs: progress.runs, figure: null } });
   });
 
   // a spreadsheet of products: text/csv, read whole before anything is written

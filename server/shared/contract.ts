@@ -61,3 +61,12 @@ export const lineStopSchema = z.strictObject({
   by: z.string(),
 });
 export type LineStopView = z.output<typeof lineStopSchema>;
+
+/** How often the enabled rules would fire on an in-control process, by simulation. */
+export const falseAlarmSchema = z.strictObject({
+  arlChecks: z.number(),
+  standardError: z.number(),
+  intervalMinutes: z.number(),
+  words: z.string(),
+  method: z.string(),
+});

@@ -23,11 +23,20 @@ export interface ArlEstimate {
   censored: number;
 }
 
+/** A simulation that can be run a few runs at a time (to keep a server answering), with the same result as in one go. */
+export interface ArlSimulation {
+  /** Simulates up to `runs` more runs; returns how many runs are done in all. */
+  step(runs: number): number;
+  readonly done: boolean;
+  /** The estimate over the runs done so far (all of them once `done`). */
+  estimate(): ArlEstimate;
+}
+
 /**
  * Average run length of a rule set by seeded Monte Carlo simulation of in-control (or shifted) points
  * run through the same judging code the server uses (method as in Champ & Woodall 1987 §4 checks).
  */
-export function simulateArl(set: RuleSet, options: ArlOptions): ArlEstimate {
+export function createArlSimulation(set: RuleSet, options: ArlOptions): ArlSimulation {
   const normal = normalGenerator(mulberry32(options.seed));
   const n = options.subgroupSize ?? 0;
   const spreadLimits = n >= 2 ? spreadChartLimits(1, n) : null;
@@ -36,23 +45,24 @@ export function simulateArl(set: RuleSet, options: ArlOptions): ArlEstimate {
   let sum = 0;
   let sumSq = 0;
   let censored = 0;
-  for (let run = 0; run < options.runs; run += 1) {
+  let done = 0;
+
+  function nextPoint(): JudgedPoint {
+    if (!spreadLimits) return { z: normal() + shift, spread: null };
+    for (let i = 0; i < n; i += 1) packs[i] = normal();
+    let m = 0;
+    for (let i = 0; i < n; i += 1) m += packs[i] as number;
+    m /= n;
+    const spreadValue = spreadLimits.chart === 'S' ? (sampleSd(packs) as number) : range(packs);
+    return { z: m * Math.sqrt(n) + shift, spread: { value: spreadValue, ucl: spreadLimits.ucl } };
+  }
+
+  function oneRun(): void {
     let state = freshSegment();
     let length = 0;
     for (;;) {
       length += 1;
-      let point: JudgedPoint;
-      if (spreadLimits) {
-        for (let i = 0; i < n; i += 1) packs[i] = normal();
-        let m = 0;
-        for (let i = 0; i < n; i += 1) m += packs[i] as number;
-        m /= n;
-        const spreadValue = spreadLimits.chart === 'S' ? (sampleSd(packs) as number) : range(packs);
-        point = { z: m * Math.sqrt(n) + shift, spread: { value: spreadValue, ucl: spreadLimits.ucl } };
-      } else {
-        point = { z: normal() + shift, spread: null };
-      }
-      const judged = judgePoint(set, state, point);
+      const judged = judgePoint(set, state, nextPoint());
       state = judged.state;
       if (judged.signals.length > 0) break;
       if (length >= options.maxLength) {
@@ -62,10 +72,32 @@ export function simulateArl(set: RuleSet, options: ArlOptions): ArlEstimate {
     }
     sum += length;
     sumSq += length * length;
+    done += 1;
   }
-  const arl = sum / options.runs;
-  const variance = Math.max(0, sumSq / options.runs - arl * arl);
-  return { arl, standardError: Math.sqrt(variance / options.runs), runs: options.runs, censored };
+
+  return {
+    step(runs: number): number {
+      const until = Math.min(options.runs, done + runs);
+      while (done < until) oneRun();
+      return done;
+    },
+    get done() {
+      return done >= options.runs;
+    },
+    estimate(): ArlEstimate {
+      const k = Math.max(done, 1);
+      const arl = sum / k;
+      const variance = Math.max(0, sumSq / k - arl * arl);
+      return { arl, standardError: Math.sqrt(variance / k), runs: done, censored };
+    },
+  };
+}
+
+/** Average run length of a rule set by seeded simulation, in one go (see createArlSimulation). */
+export function simulateArl(set: RuleSet, options: ArlOptions): ArlEstimate {
+  const simulation = createArlSimulation(set, options);
+  simulation.step(options.runs);
+  return simulation.estimate();
 }
 
 /** Plain words for an expected interval between false alarms, e.g. "about one false alarm per 4 days". */

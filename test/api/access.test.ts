@@ -48,6 +48,7 @@ const MATRIX: Record<string, { who: Principal[]; url: string; payload?: object; 
   'POST /api/products': { who: QUAL, url: '/api/products', payload: {}, ok: 400 },
   'POST /api/products/preview': { who: QUAL, url: '/api/products/preview', payload: {}, ok: 400 },
   'POST /api/products/import': { who: QUAL, url: '/api/products/import', payload: {}, ok: 400 },
+  'POST /api/products/false-alarm': { who: QUAL, url: '/api/products/false-alarm', payload: {}, ok: 400 },
   'PATCH /api/products/:productId': { who: QUAL, url: '/api/products/1', payload: {}, ok: 200 },
   'POST /api/lines/:lineId/checks': { who: [...PEOPLE, 'checks-token'], url: '/api/lines/1/checks', payload: {}, ok: 400 },
   'POST /api/lines/:lineId/packs': { who: [...PEOPLE, 'checks-token'], url: '/api/lines/1/packs', payload: {}, ok: 400 },

@@ -212,15 +212,16 @@ describe('limits versions', () => {
   });
 
   it('when the breaking point is left out with a reason, then the proposal is made without it, a bad exclusion is named, and the approved version keeps the reason', async () => {
-    t = await makeTestApp();
+    const app = await makeTestApp();
+    t = app;
     const { lineId } = await setupLine(t);
-    const q = { cookie: t.cookies.quality };
-    const from = new Date(t.clock.now()).toISOString();
-    const calm = await series(t, lineId, [...CALM, ...CALM, 503.05, 503]);
-    const odd = await t.app.inject({ method: 'POST', url: `/api/lines/${lineId}/checks`, headers: { cookie: t.cookies.operator }, payload: { weights: weightsWithMean(520), clientId: crypto.randomUUID(), confirmSuspect: true } });
+    const q = { cookie: app.cookies.quality };
+    const from = new Date(app.clock.now()).toISOString();
+    const calm = await series(app, lineId, [...CALM, ...CALM, 503.05, 503]);
+    const odd = await app.app.inject({ method: 'POST', url: `/api/lines/${lineId}/checks`, headers: { cookie: app.cookies.operator }, payload: { weights: weightsWithMean(520), clientId: crypto.randomUUID(), confirmSuspect: true } });
     const oddId = odd.json().check.id as number;
-    const to = new Date(t.clock.now() + 1).toISOString();
-    const propose = (exclude: unknown) => t.app.inject({ method: 'POST', url: `/api/lines/${lineId}/limits/proposal`, headers: q, payload: { from, to, exclude } });
+    const to = new Date(app.clock.now() + 1).toISOString();
+    const propose = (exclude: unknown) => app.app.inject({ method: 'POST', url: `/api/lines/${lineId}/limits/proposal`, headers: q, payload: { from, to, exclude } });
     const without = (await propose([{ checkId: oddId, reason: 'scale knocked' }])).json().proposal;
     expect([without.checks, without.breaking.length]).toEqual([calm.length, 0]);
     // the centre is the mean of the means kept (simple-statistics, an independent library)
@@ -230,9 +231,9 @@ describe('limits versions', () => {
     expect([notInBaseline.statusCode, notInBaseline.json().issues[0].field]).toEqual([400, 'exclude.0.checkId']);
     const noReason = await propose([{ checkId: oddId, reason: '  ' }]);
     expect([noReason.statusCode, noReason.json().issues[0].field]).toEqual([400, 'exclude.0.reason']);
-    const badApproval = await t.app.inject({ method: 'POST', url: `/api/lines/${lineId}/limits`, headers: q, payload: { basis: 'baseline', from, to, exclude: [{ checkId: oddId, reason: 'a' }, { checkId: oddId, reason: 'b' }] } });
-    expect([badApproval.statusCode, badApproval.json().issues[0].field, countRows(t.db, 'limit_versions')]).toEqual([400, 'exclude.1.checkId', 0]);
-    const approved = await t.app.inject({ method: 'POST', url: `/api/lines/${lineId}/limits`, headers: q, payload: { basis: 'baseline', from, to, exclude: [{ checkId: oddId, reason: 'scale knocked' }] } });
+    const badApproval = await app.app.inject({ method: 'POST', url: `/api/lines/${lineId}/limits`, headers: q, payload: { basis: 'baseline', from, to, exclude: [{ checkId: oddId, reason: 'a' }, { checkId: oddId, reason: 'b' }] } });
+    expect([badApproval.statusCode, badApproval.json().issues[0].field, countRows(app.db, 'limit_versions')]).toEqual([400, 'exclude.1.checkId', 0]);
+    const approved = await app.app.inject({ method: 'POST', url: `/api/lines/${lineId}/limits`, headers: q, payload: { basis: 'baseline', from, to, exclude: [{ checkId: oddId, reason: 'scale knocked' }] } });
     expect(approved.statusCode).toBe(201);
     expect([approved.json().limits.baselineChecks, approved.json().limits.excluded, approved.json().limits.centre]).toEqual([calm.length, [{ checkId: oddId, reason: 'scale knocked' }], without.centre]);
   });

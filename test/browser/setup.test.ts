@@ -170,7 +170,11 @@ describe.skipIf(!HAVE_CHROMIUM)('plant set-up in the browser', () => {
     await page.getByLabel('Line name').fill('Line 9 — trial');
     await page.locator('#line-form button[type="submit"]').click();
     const row = page.locator('#lines-table tr[data-line="L9"]');
-    await expect.poll(() => row.innerText()).toMatch(/L9\s+Line 9 — trial\s+no product/);
+    await expect.poll(() => row.innerText()).toMatch(/L9\s+Line 9 — trial\s+Rename\s+no product/);
+    await row.getByRole('button', { name: 'Rename' }).click();
+    await row.getByLabel('New name for L9').fill('Line 9 — rice trial');
+    await row.getByRole('button', { name: 'Save' }).click();
+    await expect.poll(() => row.innerText()).toMatch(/L9\s+Line 9 — rice trial\s+Rename\s+no product/);
     let asked = '';
     page.once('dialog', (d) => {
       asked = d.message();
@@ -189,13 +193,17 @@ describe.skipIf(!HAVE_CHROMIUM)('plant set-up in the browser', () => {
   it('when the quality manager proposes limits from a baseline, then the check that breaks them is marked and listed; left out with a reason and approved, the version is in force for the next check', async () => {
     const { timeZone } = (await t.app.inject({ method: 'GET', url: '/api/plant', headers: { cookie: t.cookies.operator } })).json().plant as { timeZone: string };
     const started = Date.now();
+    // a line of its own, so that no other test's checks fall in its baseline
+    const made = await t.app.inject({ method: 'POST', url: '/api/lines', headers: { cookie: t.cookies.admin }, payload: { code: 'L7', name: 'Line 7' } });
+    const lineId = made.json().line.id as number;
+    expect((await t.app.inject({ method: 'PUT', url: `/api/lines/${lineId}/product`, headers: { cookie: t.cookies.admin }, payload: { productId: 1 } })).statusCode).toBe(200);
     // a steady baseline with one check well above it (means 503 ± 0.6 g; the odd one 511 g)
     const means = Array.from({ length: 24 }, (_, i) => 503 + [0.6, -0.4, 0.2, -0.6, 0.4, 0, -0.2, 0.3][i % 8]!);
     means[10] = 511;
     for (const mean of means) expect((await postCheck(t, lineId, weightsWithMean(mean))).statusCode).toBe(201);
     const page = await setupAs('quality');
     const limits = page.locator('#limits');
-    await limits.getByLabel('Line', { exact: true }).selectOption({ label: 'L1 — Line L1 (P-L1)' });
+    await limits.getByLabel('Line', { exact: true }).selectOption({ label: 'L7 — Line 7 (P-L1)' });
     await limits.getByLabel('Baseline from').fill(isoToWallTime(new Date(started - 10 * 60_000).toISOString(), timeZone));
     await limits.getByLabel('Baseline to').fill(isoToWallTime(new Date(Date.now() + 2 * 60_000).toISOString(), timeZone));
     await limits.getByRole('button', { name: 'Propose limits' }).click();
@@ -224,6 +232,25 @@ describe.skipIf(!HAVE_CHROMIUM)('plant set-up in the browser', () => {
     expect(next.json().check.limitsVersionId).toBe(approved?.id);
     const audit = (await t.app.inject({ method: 'GET', url: '/api/audit?entity=line', headers: { cookie: t.cookies.admin } })).json().entries as { action: string; actor: string }[];
     expect(audit.filter((e) => e.action === 'limits.approve').map((e) => e.actor)).toEqual(['quality']);
+    await page.close();
+  });
+
+  it('when the quality manager switches a rule on in a product, then the expected false-alarm interval is worked out again and shorter, and the saved product keeps the choice', async () => {
+    const page = await setupAs('quality');
+    await page.locator('#product-table tr[data-code="P-L1"]').getByRole('button', { name: 'Edit' }).click();
+    const box = page.locator('#false-alarm');
+    const checksBetween = async () => Number(/one every (\d+) checks/.exec(await box.innerText())?.[1] ?? Number.NaN);
+    await expect.poll(checksBetween, { timeout: 20_000 }).toBeGreaterThan(0);
+    const before = await checksBetween();
+    expect(await box.innerText()).toMatch(/hours or [\d.]+ days at 60 min between checks/);
+    await page.getByLabel('6 rising or falling', { exact: true }).check();
+    // (while the server works the new set out the box says "Working out …"; the API test sees that state)
+    await expect.poll(checksBetween, { timeout: 20_000 }).toBeLessThan(before);
+    await page.locator('#rule-choice').screenshot({ path: `${ARTIFACTS}setup-rules.png` });
+    await page.locator('#product-form button[type="submit"]').click();
+    await expect.poll(() => page.locator('#product-saved').innerText()).toMatch(/Saved P-L1/);
+    const { product } = (await t.app.inject({ method: 'GET', url: '/api/products/1', headers: { cookie: t.cookies.operator } })).json();
+    expect(product.rules).toEqual({ rules: { trend: { enabled: true } } });
     await page.close();
   });
 });

@@ -8,6 +8,7 @@ import type { TokenView, UserView } from '../../server/auth/contract.js';
 import { setUpScales } from './scales.js';
 import { renderLines } from './lines.js';
 import { setUpLimits } from './limits.js';
+import { refreshFalseAlarm, ruleChoice, setUpRuleChoice, showRuleChoice } from './rules.js';
 
 const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as T;
 const state: { user: User | null; plant: Plant; products: Product[]; lines: Line[]; editing: Product | null } = { user: null, plant: { name: 'Heft', timeZone: 'UTC' }, products: [], lines: [], editing: null };
@@ -53,6 +54,7 @@ async function start(): Promise<void> {
   $('sections').classList.remove('hidden');
   $('who').textContent = `${user.displayName} (${user.role})`;
   for (const s of document.querySelectorAll<HTMLElement>('[data-admin-only]')) s.classList.toggle('hidden', user.role !== 'admin');
+  await setUpRuleChoice();
   await loadProducts();
   await setUpScales(state.lines, user.role === 'admin');
   if (user.role === 'admin') await Promise.all([loadPeople(), loadTokens()]);
@@ -115,12 +117,14 @@ function openProduct(p: Product | null): void {
     const initial = input instanceof HTMLSelectElement ? (input.options[0]?.value ?? '') : input.defaultValue;
     input.value = value === null || value === undefined ? (p ? '' : initial) : String(value);
   }
+  showRuleChoice(p?.rules ?? null);
   $('product-in-use').textContent = p && inUse(p) ? `In use on ${inUse(p)}.` : '';
   $('product-saved').textContent = '';
   showFieldErrors('pf', null);
   $('product-form').classList.remove('hidden');
   field('code').focus();
   void derive();
+  void refreshFalseAlarm(productBody().subgroupSize, productBody().samplingMinutes);
 }
 $('new-product').addEventListener('click', () => openProduct(null));
 $('product-cancel').addEventListener('click', () => $('product-form').classList.add('hidden'));
@@ -136,6 +140,7 @@ function productBody(): Record<string, unknown> {
     }
     body[name] = NUMBER_FIELDS.has(name) ? (Number.isNaN(Number(raw.replace(',', '.'))) ? raw : Number(raw.replace(',', '.'))) : raw;
   }
+  body.rules = ruleChoice();
   return body;
 }
 
@@ -159,7 +164,11 @@ async function derive(): Promise<void> {
 }
 $('product-form').addEventListener('input', () => {
   window.clearTimeout(deriveTimer);
-  deriveTimer = window.setTimeout(() => void derive(), 200);
+  deriveTimer = window.setTimeout(() => {
+    void derive();
+    const body = productBody();
+    void refreshFalseAlarm(body.subgroupSize, body.samplingMinutes);
+  }, 200);
 });
 
 $<HTMLFormElement>('product-form').addEventListener('submit', async (e) => {
