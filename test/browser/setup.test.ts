@@ -23,7 +23,7 @@ afterAll(async () => {
 });
 
 /** /setup in a fresh page, signed in as `role` through the page's own form. */
-async function setupAs(role: 'operator' | 'quality' | 'admin'): Promise<Page> {
+async function setupAs(role: 'operator' | 'supervisor' | 'quality' | 'admin'): Promise<Page> {
   const page = await browser.newPage();
   page.on('pageerror', (e) => console.log('page error:', e.message));
   await browser.clearCookies();
@@ -251,6 +251,25 @@ describe.skipIf(!HAVE_CHROMIUM)('plant set-up in the browser', () => {
     await expect.poll(() => page.locator('#product-saved').innerText()).toMatch(/Saved P-L1/);
     const { product } = (await t.app.inject({ method: 'GET', url: '/api/products/1', headers: { cookie: t.cookies.operator } })).json();
     expect(product.rules).toEqual({ rules: { trend: { enabled: true } } });
+    await page.close();
+  });
+
+  it('when a supervisor opens /setup, then only Lines is there, without renaming, and the supervisor changes a line over', async () => {
+    const made = await t.app.inject({ method: 'POST', url: '/api/lines', headers: { cookie: t.cookies.admin }, payload: { code: 'L5', name: 'Line 5' } });
+    expect(made.statusCode).toBe(201);
+    const page = await setupAs('supervisor');
+    await expect.poll(() => page.locator('#lines').isVisible()).toBe(true);
+    const hidden = await Promise.all(['#products', '#limits', '#scales', '#people', '#tokens'].map((s) => page.locator(s).isHidden()));
+    expect(hidden).toEqual([true, true, true, true, true]);
+    expect(await page.locator('#supervisor-note').innerText()).toMatch(/As a supervisor you can change a line over here/);
+    const row = page.locator('#lines-table tr[data-line="L5"]');
+    expect(await row.getByRole('button', { name: 'Rename' }).count()).toBe(0);
+    page.once('dialog', (d) => void d.accept());
+    await row.locator('select').selectOption({ label: 'P-L1 — Test bag 500 g' });
+    await row.getByRole('button', { name: 'Change over' }).click();
+    await expect.poll(() => row.innerText()).toMatch(/P-L1/);
+    const audit = (await t.app.inject({ method: 'GET', url: '/api/audit?entity=line', headers: { cookie: t.cookies.admin } })).json().entries as { action: string; actor: string; entityId: string }[];
+    expect(audit.some((e) => e.actor === 'supervisor' && e.entityId === String(made.json().line.id))).toBe(true);
     await page.close();
   });
 });

@@ -43,17 +43,24 @@ async function start(): Promise<void> {
   $('plant').textContent = plant.name;
   state.user = await whoAmI().catch(() => null);
   const user = state.user;
-  if (!user || (user.role !== 'quality' && user.role !== 'admin')) {
+  if (!user || user.role === 'operator') {
     $('signin').classList.remove('hidden');
     $('sections').classList.add('hidden');
-    if (user) problem(`${user.displayName} is signed in as ${user.role}. Plant set-up is for the quality manager and the plant admin: ask one of them to change products, people or tokens.`);
+    if (user) problem(`${user.displayName} is signed in as ${user.role}. Plant set-up is for the quality manager and the plant admin (a supervisor may change a line over here): ask one of them to change products, lines, people or tokens.`);
     return;
   }
   problem(null);
   $('signin').classList.add('hidden');
   $('sections').classList.remove('hidden');
   $('who').textContent = `${user.displayName} (${user.role})`;
-  for (const s of document.querySelectorAll<HTMLElement>('[data-admin-only]')) s.classList.toggle('hidden', user.role !== 'admin');
+  // each section names the roles it is for; a supervisor sees Lines only, to change a line over
+  for (const s of document.querySelectorAll<HTMLElement>('[data-roles]')) {
+    const hidden = !(s.dataset.roles ?? '').split(' ').includes(user.role);
+    s.classList.toggle('hidden', hidden);
+    document.querySelector(`nav a[href="#${s.id}"]`)?.classList.toggle('hidden', hidden);
+  }
+  $('supervisor-note').classList.toggle('hidden', user.role !== 'supervisor');
+  if (user.role === 'supervisor') return void (await loadProducts());
   await setUpRuleChoice();
   await loadProducts();
   await setUpScales(state.lines, user.role === 'admin');
@@ -83,7 +90,7 @@ async function loadProducts(): Promise<void> {
   state.lines = lines.lines;
   renderProducts();
   renderLines(state.lines, state.products, state.user?.role === 'admin', loadProducts, problem);
-  await setUpLimits(state.plant, state.lines);
+  if (state.user?.role !== 'supervisor') await setUpLimits(state.plant, state.lines);
 }
 
 /** Where a product runs now, and since when: "L1 since 3 Dec 06:00". */
