@@ -28,6 +28,7 @@ import { linesPlugin } from './lines/routes.js';
 import { createLineStopRepository } from './lines/stops-repository.js';
 import { createLineRepository } from './lines/repository.js';
 import { GroupCommitter } from './monitor/group-commit.js';
+import { createWalSync, type FileFlusher } from './db/wal-sync.js';
 import { DailyBackups } from './db/daily-backups.js';
 import { pruneOnce } from './db/housekeeping.js';
 import { createCalendarRepository } from './calendar/repository.js';
@@ -65,9 +66,15 @@ export interface AppOptions {
   overdueTimer?: boolean;
   /** With config.backupDir: take the daily backup on a timer (off in tests, which call runIfDue by hand). */
   backupTimer?: boolean;
+  /** How the WAL is flushed before an answer (tests hold it to see that nothing is answered before). */
+  walFlusher?: FileFlusher;
 }
 
 declare module 'fastify' {
+  interface FastifyRequest {
+    /** Set once the group commit has flushed what this request wrote (or found it wrote nothing). */
+    flushed: boolean;
+  }
   interface FastifyInstance {
     heft: HeftContext;
     /** The daily backups, when a backup folder is set. */
@@ -136,6 +143,7 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
     sessionIdleMs: config.sessionIdleMinutes * 60_000,
     sessionMaxMs: config.sessionMaxHours * 3_600_000,
   };
+  const wal = createWalSync(db, options.walFlusher);
   const escalations = createEscalationService({
     db,
     clock,
@@ -145,10 +153,11 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
     timeZone: config.timeZone,
     maxInFlight: config.webhookMaxInFlight,
     onSent: (alertId) => monitor.alertChanged(alertId),
+    durable: () => wal.durable(),
     log: (message, err) => app.log.error({ err }, message),
   });
   const calendar = createCalendarService({ db, clock, config, repos, monitor, calendarRepo: createCalendarRepository(db) });
-  const commits = new GroupCommitter(monitor);
+  const commits = new GroupCommitter(monitor, wal);
   const checkweigherService = createCheckweigherService({ db, clock, repos, monitor, packs: createCheckweigherRepository(db) });
   const checkweigher = {
     ...checkweigherService,
@@ -159,8 +168,29 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
       return stale.length;
     },
   };
-  const ctx: HeftContext = { db, clock, config, repos, monitor, commits, auth, escalations, calendar, checkweigher };
+  const ctx: HeftContext = { db, clock, config, repos, monitor, wal, commits, auth, escalations, calendar, checkweigher };
   app.decorate('heft', ctx);
+  // the writer commits without an fsync of its own: an answer to a change waits until what the change
+  // wrote is on the disk (a check's answer has waited already, in the group commit: this returns at once)
+  app.decorateRequest('flushed', false);
+  app.addHook('onClose', async () => {
+    // the last changes (background sweeps) to the disk before the descriptor goes; a failure is logged
+    await wal.durable().catch((err: unknown) => app.log.error({ err }, 'the WAL could not be flushed at close'));
+    wal.close();
+  });
+  app.addHook('onSend', async (request, reply, payload) => {
+    // a check's answer waited in the group commit already (its batch's flush): no second flush for it
+    if (request.method === 'GET' || request.method === 'HEAD' || request.flushed) return payload;
+    try {
+      await wal.durable();
+      return payload;
+    } catch (err) {
+      // the change is stored but not known to be on the disk: say so rather than that it worked
+      app.log.error({ err }, 'the WAL could not be flushed');
+      reply.code(503).header('content-type', 'application/json; charset=utf-8');
+      return JSON.stringify({ error: 'not-flushed', message: `the change could not be flushed to the disk (${err instanceof Error ? err.message : String(err)}); try again`, issues: [] });
+    }
+  });
   const hub = new LiveHub({ live: repos.live, now: () => clock.now() });
   listeners.push((events) => hub.publish(events));
   app.decorate('liveHub', hub);

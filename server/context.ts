@@ -7,6 +7,7 @@ import type { Config } from './config.js';
 import type { Db } from './db/database.js';
 import type { EscalationRepository } from './escalations/repository.js';
 import type { EscalationService } from './escalations/service.js';
+import type { WalSync } from './db/wal-sync.js';
 import type { GroupCommitter } from './monitor/group-commit.js';
 import type { Monitor, Repositories } from './monitor/monitor.js';
 
@@ -17,6 +18,8 @@ export interface HeftContext {
   config: Config;
   repos: Repositories & { auth: AuthRepository; escalations: EscalationRepository };
   monitor: Monitor;
+  /** The writer's flush: nothing is answered before the changes it reports are on the disk. */
+  wal: WalSync;
   /** Check entry goes through here: one commit for every check of an event-loop turn. */
   commits: GroupCommitter;
   auth: AuthService;

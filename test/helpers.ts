@@ -8,6 +8,7 @@ import { buildApp } from '../server/app.js';
 import { FollowingClock, ManualClock } from '../server/clock.js';
 import { parseConfig, type Config } from '../server/config.js';
 import { openDatabase, type Db } from '../server/db/database.js';
+import type { FileFlusher } from '../server/db/wal-sync.js';
 import { migrate } from '../server/db/migrate.js';
 import type { Role } from '../server/auth/secrets.js';
 import type { LiveEvent } from '../server/live/messages.js';
@@ -35,7 +36,7 @@ export interface TestApp {
 }
 
 /** A fresh migrated database in a temp folder, an app on it with a hand-moved clock, one user per role signed in. */
-export async function makeTestApp(options: { start?: number; dir?: string; config?: Partial<Record<keyof Config, unknown>>; users?: boolean; realTime?: boolean } = {}): Promise<TestApp> {
+export async function makeTestApp(options: { start?: number; dir?: string; config?: Partial<Record<keyof Config, unknown>>; users?: boolean; realTime?: boolean; walFlusher?: FileFlusher } = {}): Promise<TestApp> {
   const dir = options.dir ?? mkdtempSync(join(tmpdir(), 'heft-test-'));
   const file = join(dir, 'heft.db');
   const clock = options.realTime ? new FollowingClock() : new ManualClock(options.start ?? Date.parse('2026-03-02T06:00:00Z'));
@@ -44,7 +45,7 @@ export async function makeTestApp(options: { start?: number; dir?: string; confi
   const db = openDatabase(file);
   migrate(db);
   const events: LiveEvent[] = [];
-  const app = await buildApp({ db, clock, config, onLive: (e) => events.push(...e) });
+  const app = await buildApp({ db, clock, config, onLive: (e) => events.push(...e), walFlusher: options.walFlusher });
   const cookies = {} as Record<Role, string>;
   const withUsers = options.users ?? !options.dir;
   for (const role of Object.keys(SECRETS) as Role[]) {

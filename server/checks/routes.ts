@@ -23,7 +23,7 @@ export const checksPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
     },
     async (req, reply) => {
       const actor = requireActor(req);
-      const result = await commits.submit(() => monitor.recordCheck(req.params.lineId, req.body, actorName(actor)));
+      const result = await commits.submit(() => monitor.recordCheck(req.params.lineId, req.body, actorName(actor)), req);
       return reply.code(result.created ? 201 : 200).send({ check: result.check, signals: result.signals, alerts: result.alerts });
     },
   );
@@ -36,7 +36,7 @@ export const checksPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
     },
     async (req, reply) => {
       const actor = actorName(requireActor(req));
-      const result = await commits.submit(() => monitor.correctCheck(req.params.checkId, req.body, actor));
+      const result = await commits.submit(() => monitor.correctCheck(req.params.checkId, req.body, actor), req);
       return reply.code(result.created ? 201 : 200).send({ check: result.check, signals: result.signals, alerts: result.alerts });
     },
   );

@@ -20,7 +20,7 @@ export const checkweigherPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = asyn
     },
     async (req, reply) => {
       const actor = actorName(requireActor(req));
-      const result = await commits.submit(() => checkweigher.receive(req.params.lineId, req.body, actor));
+      const result = await commits.submit(() => checkweigher.receive(req.params.lineId, req.body, actor), req);
       return reply.code(result.created ? 201 : 200).send(result);
     },
   );

@@ -33,6 +33,8 @@ export interface EscalationOptions {
   /** Called after a notification about an alert was sent, so the boards can show who was told. */
   onSent?: (alertId: number) => void;
   log: (message: string, err?: unknown) => void;
+  /** Resolves once the writer's changes are on the disk: nobody is told of an alert a power cut could take back. */
+  durable?: () => Promise<void>;
 }
 
 /**
@@ -191,10 +193,12 @@ export function createEscalationService(o: EscalationOptions) {
       const room = o.maxInFlight - inFlight.size;
       if (room <= 0) return 0;
       const due = esc.pending(clock.now(), room + inFlight.size).filter((n) => !inFlight.has(n.id)).slice(0, room);
+      for (const n of due) inFlight.add(n.id);
+      const flushed = due.length > 0 && o.durable ? o.durable() : Promise.resolve();
       await Promise.all(
         due.map(async (n) => {
-          inFlight.add(n.id);
           try {
+            await flushed;
             await deliver(n);
           } catch (err) {
             o.log('a notification could not be settled', err);

@@ -29,6 +29,13 @@ class BatchAborted extends Error {
   }
 }
 
+/** A check's writes failed part-way in a batch run without savepoints: the batch is run again with them. */
+class PartialWrite extends Error {
+  constructor(override readonly cause: unknown) {
+    super('a check failed while it was being written');
+  }
+}
+
 export interface Repositories {
   lines: LineRepository;
   stops: LineStopRepository;
@@ -90,7 +97,7 @@ export class Monitor {
   private readonly sampling: SamplingClock;
   private readonly alertCommands: AlertCommands;
   /** While a batch runs: the messages held back until its commit, and the lines it moved. */
-  private batch: { messages: LiveEvent[]; lines: Set<number> } | null = null;
+  private batch: { messages: LiveEvent[]; lines: Set<number>; savepoints: boolean } | null = null;
 
   constructor(options: MonitorOptions) {
     this.db = options.db;
@@ -124,14 +131,23 @@ export class Monitor {
   }
 
   /**
-   * Group commit: runs the jobs in one IMMEDIATE transaction, each in a savepoint of its own (better-
-   * sqlite3 nests transactions that way), so a job that fails rolls back alone and the rest share one
-   * fsync. Messages go out only after the commit; if the commit itself fails, every job fails with
-   * that error and the lines they moved are reloaded from storage, which is the truth.
+   * Group commit: runs the jobs in one IMMEDIATE transaction so that they share one flush. A job
+   * refused before it writes fails alone; a check that fails while writing sends the batch round again
+   * with a savepoint for each job (better-sqlite3 nests transactions that way), so that it rolls back
+   * alone. The batch's live messages are returned, not sent: the caller sends them once the commit is
+   * on the disk. If the commit itself fails, every job fails with that error (and no message) and the
+   * lines they moved are reloaded from storage, which is the truth.
    */
-  runBatch<T>(jobs: readonly (() => T)[]): JobResult<T>[] {
+  runBatch<T>(jobs: readonly (() => T)[]): { results: JobResult<T>[]; messages: LiveEvent[] } {
+    // a check refused before it writes (the usual failure) needs no savepoint; one that fails while
+    // writing throws PartialWrite, and the whole batch is rolled back and run again, a savepoint each
+    const fast = this.tryBatch(jobs, false);
+    return fast === 'again' ? (this.tryBatch(jobs, true) as { results: JobResult<T>[]; messages: LiveEvent[] }) : fast;
+  }
+
+  private tryBatch<T>(jobs: readonly (() => T)[], savepoints: boolean): { results: JobResult<T>[]; messages: LiveEvent[] } | 'again' {
     if (this.batch) throw new Error('batches do not nest');
-    const batch = { messages: [] as LiveEvent[], lines: new Set<number>() };
+    const batch = { messages: [] as LiveEvent[], lines: new Set<number>(), savepoints };
     this.batch = batch;
     let results: JobResult<T>[] = [];
     try {
@@ -142,20 +158,26 @@ export class Monitor {
           } catch (error) {
             // SQLite rolls the whole transaction back by itself on some errors (a full disk, an I/O
             // error): then the jobs before this one are gone too, and the batch fails as a whole
-            if (!this.db.inTransaction) throw new BatchAborted(error);
+            if (!this.db.inTransaction) throw new BatchAborted(error instanceof PartialWrite ? error.cause : error);
+            if (error instanceof PartialWrite) throw error;
             return { ok: false as const, error };
           }
         });
       }).immediate();
     } catch (caught) {
       this.batch = null;
-      const error = caught instanceof BatchAborted ? caught.cause : caught;
       for (const lineId of batch.lines) this.lines.reload(lineId);
-      return jobs.map(() => ({ ok: false as const, error }));
+      if (caught instanceof PartialWrite && !savepoints) return 'again';
+      const cause = caught instanceof BatchAborted || caught instanceof PartialWrite ? caught.cause : caught;
+      return { results: jobs.map(() => ({ ok: false as const, error: cause })), messages: [] };
     }
     this.batch = null;
-    this.publish(batch.messages);
-    return results;
+    return { results, messages: batch.messages };
+  }
+
+  /** Sends messages whose commit is on the disk (a batch's, after its flush). */
+  send(messages: LiveEvent[]): void {
+    if (messages.length > 0) this.publish(messages);
   }
 
   /** Numbers and stores live messages; call inside the transaction whose change they report. */
@@ -227,7 +249,8 @@ export class Monitor {
     const now = this.clock.now();
     const step = checkStep(base, input, now, actor, correction);
     const previous = base.model ? { segment: base.segment, segmentStartCheckId: base.segmentStartCheckId } : null;
-    const outcome = this.db.transaction(() => this.storeCheck(base, step, correction, previous, actor, now)).immediate();
+    const store = () => this.storeCheck(base, step, correction, previous, actor, now);
+    const outcome = this.batch && !this.batch.savepoints ? this.withoutSavepoint(store) : this.db.transaction(store).immediate();
 
     // committed: only now does memory move on
     if (base.model) {
@@ -241,6 +264,15 @@ export class Monitor {
     target.openAlerts = outcome.openAlerts;
     this.emit(outcome.messages, base.line.id);
     return outcome.result;
+  }
+
+  /** Runs a check's writes straight in the batch's transaction; a failure part-way sends the batch round again. */
+  private withoutSavepoint<T>(store: () => T): T {
+    try {
+      return store();
+    } catch (error) {
+      throw new PartialWrite(error);
+    }
   }
 
   /** Writes a judged check with its signals, alerts, detector state and live messages; inside the caller's transaction. */

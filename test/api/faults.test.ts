@@ -33,6 +33,28 @@ describe('group commit', () => {
     // the detectors saw every check once: the segment holds all of them
     expect(t.app.heft.monitor.lineState(lineId).segment.count).toBe(29);
   });
+
+  it('when one check of a batch fails while it is being written, then it alone is refused, nothing of it is stored, and the others go in once each', async () => {
+    const app = await makeTestApp();
+    t = app;
+    const { lineId } = await setupLine(app);
+    app.clock.advance(3_600_000);
+    // a pack of exactly 507.7 g cannot be stored: the check row is written before its packs, so this
+    // fails half-way through the check's writes
+    app.db.exec("CREATE TRIGGER refuse_one_pack BEFORE INSERT ON packs WHEN NEW.net = 507.7 BEGIN SELECT RAISE(ABORT, 'test: this pack cannot be stored'); END");
+    const before = snapshot(app);
+    const bodies = Array.from({ length: 12 }, (_, i) => (i === 5 ? [503, 502, 507.7, 503, 504] : weightsWithMean(503 + (i % 3) * 0.1)));
+    const answers = await Promise.all(bodies.map((w) => postCheck(app, lineId, w)));
+    expect(answers.map((a) => a.statusCode)).toEqual(bodies.map((_, i) => (i === 5 ? 500 : 201)));
+    const after = snapshot(app);
+    expect([after.checks, after.packs]).toEqual([(before.checks ?? 0) + 11, (before.packs ?? 0) + 55]);
+    // the line's memory matches what was stored: the 11 checks, each once
+    expect(app.app.heft.monitor.lineState(lineId).segment.count).toBe(11);
+    const ids = answers.filter((a) => a.statusCode === 201).map((a) => a.json().check.id as number);
+    expect(new Set(ids).size).toBe(11);
+    const live = app.events.filter((e) => e.type === 'check').map((e) => (e as unknown as { check: { id: number } }).check.id);
+    expect(live.slice(-11)).toEqual(ids);
+  });
 });
 
 describe('a full disk', () => {

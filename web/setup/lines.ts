@@ -57,7 +57,7 @@ export function renderLines(lines: Line[], products: Product[], isAdmin: boolean
         rename.addEventListener('click', () => renameForm(l, nameCell, reload, problem));
         nameCell.append(' ', rename);
       }
-      return el('tr', { 'data-line': l.code }, el('td', {}, l.code), nameCell, el('td', {}, l.product ? l.product.code : 'no product'), el('td', {}, since(l.runStartedAt)), el('td', {}, state), el('td', {}, pick, ' ', change));
+      return el('tr', { 'data-line': l.code }, el('td', {}, l.code), nameCell, el('td', {}, l.product ? l.product.code : 'no product'), el('td', {}, since(l.runStartedAt)), el('td', {}, state), el('td', {}, el('label', { for: pick.id, class: 'muted' }, 'New product'), ' ', pick, ' ', change));
     }),
   );
   $('line-form').classList.toggle('hidden', !isAdmin);

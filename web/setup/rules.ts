@@ -34,8 +34,8 @@ export async function setUpRuleChoice(): Promise<void> {
         'div',
         { class: 'rule-row', 'data-rule': r.id },
         el('label', {}, el('input', { type: 'checkbox', id: `rc-${r.id}` }), ` ${r.words}`),
-        el('label', { for: `rc-${r.id}-severity`, class: 'sr-only' }, `Severity of ${r.words}`),
-        el('select', { id: `rc-${r.id}-severity` }, el('option', { value: 'act' }, 'act'), el('option', { value: 'watch' }, 'watch')),
+        el('label', { for: `rc-${r.id}-severity`, class: 'muted' }, 'severity'),
+        el('select', { id: `rc-${r.id}-severity`, 'aria-label': `Severity of ${r.words}` }, el('option', { value: 'act' }, 'act'), el('option', { value: 'watch' }, 'watch')),
       ),
     ),
   );
