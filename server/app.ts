@@ -29,6 +29,7 @@ import { createLineStopRepository } from './lines/stops-repository.js';
 import { createLineRepository } from './lines/repository.js';
 import { GroupCommitter } from './monitor/group-commit.js';
 import { createWalSync, type FileFlusher } from './db/wal-sync.js';
+import { startCheckpointer, type Checkpointer } from './db/checkpointer.js';
 import { DailyBackups } from './db/daily-backups.js';
 import { pruneOnce } from './db/housekeeping.js';
 import { createCalendarRepository } from './calendar/repository.js';
@@ -66,6 +67,8 @@ export interface AppOptions {
   overdueTimer?: boolean;
   /** With config.backupDir: take the daily backup on a timer (off in tests, which call runIfDue by hand). */
   backupTimer?: boolean;
+  /** Run WAL checkpoints on a thread of their own (the server does; tests that are about it turn it on). */
+  checkpointThread?: boolean;
   /** How the WAL is flushed before an answer (tests hold it to see that nothing is answered before). */
   walFlusher?: FileFlusher;
 }
@@ -77,6 +80,8 @@ declare module 'fastify' {
   }
   interface FastifyInstance {
     heft: HeftContext;
+    /** WAL checkpoints on their own thread, when `checkpointThread` is on. */
+    checkpointer: Checkpointer | null;
     /** The daily backups, when a backup folder is set. */
     backups: DailyBackups | null;
   }
@@ -173,6 +178,9 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
   // the writer commits without an fsync of its own: an answer to a change waits until what the change
   // wrote is on the disk (a check's answer has waited already, in the group commit: this returns at once)
   app.decorateRequest('flushed', false);
+  const checkpointer = options.checkpointThread ? startCheckpointer(db, { log: (m) => app.log.error(m) }) : null;
+  app.decorate('checkpointer', checkpointer);
+  app.addHook('onClose', async () => checkpointer?.stop());
   app.addHook('onClose', async () => {
     // the last changes (background sweeps) to the disk before the descriptor goes; a failure is logged
     await wal.durable().catch((err: unknown) => app.log.error({ err }, 'the WAL could not be flushed at close'));

@@ -72,6 +72,7 @@ async function main(): Promise<void> {
     config,
     logger: { level: config.logLevel },
     overdueTimer: true,
+    checkpointThread: true,
     backupTimer: true,
     onLive: (events) => {
       for (const listen of live) listen(events);
