@@ -31,6 +31,9 @@ interface LineInfo {
 
 const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
 
+
+/** How many stored client ids a bridge keeps in memory (for its log and tests). */
+export const STORED_KEPT = 100;
 /**
  * The scale bridge: reads a scale's lines, collects a check's packs, and posts each check with a
  * client id so a retried post is stored once. Checks wait in a file queue until the server has
@@ -46,7 +49,9 @@ export class ScaleBridge {
   private wake: (() => void) | null = null;
   private sending: Promise<void> | null = null;
   private refresher: NodeJS.Timeout | null = null;
-  /** Checks the server stored since the start, by client id; tests and the log read it. */
+  /** How many checks the server stored since the start. */
+  storedCount = 0;
+  /** The client ids of the last STORED_KEPT of them, oldest first (a bridge runs for months: not all). */
   readonly stored: string[] = [];
 
   constructor(private readonly o: BridgeOptions) {
@@ -159,7 +164,9 @@ export class ScaleBridge {
       signal: AbortSignal.timeout(10_000),
     });
     if (res.status === 200 || res.status === 201) {
+      this.storedCount += 1;
       this.stored.push(check.clientId);
+      if (this.stored.length > STORED_KEPT) this.stored.shift();
       this.o.log('info', `check stored (${res.status === 201 ? 'new' : 'already there'})`);
       return;
     }

@@ -38,7 +38,8 @@ export async function setUpLimits(plant: Plant, lines: Line[]): Promise<void> {
   if ($<HTMLInputElement>('lm-from').value === '') {
     const now = Date.now();
     $<HTMLInputElement>('lm-from').value = isoToWallTime(new Date(now - 7 * 86_400_000).toISOString(), plant.timeZone);
-    $<HTMLInputElement>('lm-to').value = isoToWallTime(new Date(now).toISOString(), plant.timeZone);
+    // a minute on, so that a check of the current minute is in the range (the field has no seconds)
+    $<HTMLInputElement>('lm-to').value = isoToWallTime(new Date(now + 60_000).toISOString(), plant.timeZone);
   }
   await loadVersions();
 }
