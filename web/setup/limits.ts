@@ -148,6 +148,7 @@ function renderBreaking(p: Proposal, w: (v: number) => string): void {
 
 function renderExcluded(p: Proposal, w: (v: number) => string): void {
   const out = p.points.filter((x) => x.excludedReason !== null);
+  if (out.length === 0) return void $('lm-excluded').replaceChildren(el('li', { class: 'muted' }, 'none: every check of the range is in the estimate'));
   $('lm-excluded').replaceChildren(
     ...out.map((x) => {
       const back = el('button', { type: 'button' }, 'Put back');
