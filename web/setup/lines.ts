@@ -1,5 +1,6 @@
 import { api, ApiError, type Line, type Product } from '../shared/api.js';
 import { el } from '../shared/format.js';
+import { when } from './when.js';
 
 /*
  * The Lines part of set-up: each line with the product it runs and since when; the admin makes and
@@ -7,7 +8,6 @@ import { el } from '../shared/format.js';
  */
 
 const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as T;
-const since = (iso: string | null) => (iso ? new Date(iso).toLocaleString('en-GB', { dateStyle: 'medium', timeStyle: 'short' }) : '—');
 
 /** A small form in the name's cell: the new name, saved through PATCH /api/lines/:id (audited there). */
 function renameForm(l: Line, cell: HTMLElement, reload: () => Promise<void>, problem: (text: string | null) => void): void {
@@ -57,7 +57,7 @@ export function renderLines(lines: Line[], products: Product[], isAdmin: boolean
         rename.addEventListener('click', () => renameForm(l, nameCell, reload, problem));
         nameCell.append(' ', rename);
       }
-      return el('tr', { 'data-line': l.code }, el('td', {}, l.code), nameCell, el('td', {}, l.product ? l.product.code : 'no product'), el('td', {}, since(l.runStartedAt)), el('td', {}, state), el('td', {}, el('label', { for: pick.id, class: 'muted' }, 'New product'), ' ', pick, ' ', change));
+      return el('tr', { 'data-line': l.code }, el('td', {}, l.code), nameCell, el('td', {}, l.product ? l.product.code : 'no product'), el('td', {}, when(l.runStartedAt)), el('td', {}, state), el('td', {}, el('label', { for: pick.id, class: 'muted' }, 'New product'), ' ', pick, ' ', change));
     }),
   );
   $('line-form').classList.toggle('hidden', !isAdmin);

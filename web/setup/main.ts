@@ -8,6 +8,7 @@ import type { TokenView, UserView } from '../../server/auth/contract.js';
 import { setUpScales } from './scales.js';
 import { renderLines } from './lines.js';
 import { setUpLimits } from './limits.js';
+import { usePlantZone, when } from './when.js';
 import { refreshFalseAlarm, ruleChoice, setUpRuleChoice, showRuleChoice } from './rules.js';
 
 const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as T;
@@ -40,6 +41,7 @@ function showFieldErrors(prefix: string, err: unknown): void {
 async function start(): Promise<void> {
   const plant = await getPlant().catch(() => state.plant);
   state.plant = plant;
+  usePlantZone(plant.timeZone);
   $('plant').textContent = plant.name;
   state.user = await whoAmI().catch(() => null);
   const user = state.user;
@@ -97,7 +99,7 @@ async function loadProducts(): Promise<void> {
 function inUse(p: Product): string {
   return state.lines
     .filter((l) => l.product?.id === p.id)
-    .map((l) => `${l.code} since ${l.runStartedAt ? new Date(l.runStartedAt).toLocaleString('en-GB', { dateStyle: 'medium', timeStyle: 'short' }) : '?'}`)
+    .map((l) => `${l.code} since ${when(l.runStartedAt, '?')}`)
     .join(', ');
 }
 
@@ -231,8 +233,6 @@ $<HTMLFormElement>('import-form').addEventListener('submit', async (e) => {
 
 // ------------------------------------------------------------------ people
 
-/** A time as the plant reads it ("3 Dec 2026, 14:05"), or the words for none. */
-const when = (iso: string | null, none: string) => (iso ? new Date(iso).toLocaleString('en-GB', { dateStyle: 'medium', timeStyle: 'short' }) : none);
 
 async function loadPeople(): Promise<void> {
   const { users } = await api<{ users: UserView[] }>('GET', '/api/users');
@@ -303,7 +303,7 @@ async function loadTokens(): Promise<void> {
         await api('DELETE', `/api/tokens/${t.id}`).catch((err) => problem(messageOf(err)));
         await loadTokens();
       });
-      return el('tr', { 'data-token': t.name }, el('td', {}, t.name), el('td', {}, t.kind), el('td', {}, t.lineIds.map(lineCode).join(', ') || '—'), el('td', {}, `${new Date(t.createdAt).toLocaleString('en-GB', { dateStyle: 'medium', timeStyle: 'short' })} by ${t.createdBy}`), el('td', {}, t.revokedAt ? 'revoked' : 'active'), el('td', {}, when(t.lastUsedAt, 'not yet used')), el('td', {}, t.revokedAt ? '' : revoke));
+      return el('tr', { 'data-token': t.name }, el('td', {}, t.name), el('td', {}, t.kind), el('td', {}, t.lineIds.map(lineCode).join(', ') || '—'), el('td', {}, `${when(t.createdAt)} by ${t.createdBy}`), el('td', {}, t.revokedAt ? 'revoked' : 'active'), el('td', {}, when(t.lastUsedAt, 'not yet used')), el('td', {}, t.revokedAt ? '' : revoke));
     }),
   );
   $('tk-lines').replaceChildren(el('legend', {}, 'Lines it may post checks to'), ...state.lines.map((l) => el('label', {}, el('input', { type: 'checkbox', value: String(l.id) }), ` ${l.code}`)));

@@ -1,5 +1,6 @@
 import { api, ApiError, type Line } from '../shared/api.js';
 import { el } from '../shared/format.js';
+import { when } from './when.js';
 import type { ScaleProfileView } from '../../server/scales/contract.js';
 
 /*
@@ -40,7 +41,7 @@ function body(): Record<string, unknown> {
 async function load(lineId: number): Promise<void> {
   const { scale } = await api<{ scale: ScaleProfileView }>('GET', `/api/lines/${lineId}/scale`);
   for (const name of FIELDS) input(name).value = scale[name] === null ? '' : String(scale[name]);
-  $('scale-state').textContent = scale.configured ? `Set by ${scale.updatedBy} on ${new Date(scale.updatedAt as string).toLocaleString('en-GB', { dateStyle: 'medium', timeStyle: 'short' })}.` : 'This line uses the defaults.';
+  $('scale-state').textContent = scale.configured ? `Set by ${scale.updatedBy} on ${when(scale.updatedAt)}.` : 'This line uses the defaults.';
   clearErrors();
   $('scale-saved').textContent = '';
   $('scale-reading').textContent = '';
