@@ -12,4 +12,10 @@ export type Plant = z.output<typeof plantSchema>;
 export const plantAnswer = z.strictObject({ plant: plantSchema });
 /** A rule as the catalogue offers it, with the severity and on/off a product gets unless it says otherwise. */
 export const ruleDescriptionSchema = z.strictObject({ id: ruleId, words: z.string(), defaultSeverity: severity, defaultEnabled: z.boolean() });
-export const rulesAnswer = z.strictObject({ rules: z.array(ruleDescriptionSchema) });
+/** The detectors' design and run length a product gets unless it says otherwise. */
+export const ruleDefaultsSchema = z.strictObject({
+  runLength: z.union([z.literal(8), z.literal(9)]),
+  ewma: z.strictObject({ lambda: z.number(), L: z.number() }),
+  cusum: z.strictObject({ k: z.number(), h: z.number() }),
+});
+export const rulesAnswer = z.strictObject({ rules: z.array(ruleDescriptionSchema), defaults: ruleDefaultsSchema });

@@ -4,6 +4,7 @@ import type { BackupReport } from '../db/backup.js';
 import { fromRoot } from '../paths.js';
 import { SIGNED_IN } from '../auth/access.js';
 import { RULE_CATALOGUE } from '../stats/rules.js';
+import { resolveRuleSet } from '../stats/rule-set.js';
 import { healthAnswer, plantAnswer, rulesAnswer } from './contract.js';
 
 export const VERSION = (JSON.parse(readFileSync(fromRoot('package.json'), 'utf8')) as { version: string }).version;
@@ -15,5 +16,8 @@ export const healthPlugin: FastifyPluginAsync<{ plant: { name: string; timeZone:
   });
   // the pages need the plant's time zone before anyone signs in
   app.get('/api/plant', { config: { roles: ['anyone'] }, schema: { response: { 200: plantAnswer } } }, async () => ({ plant }));
-  app.get('/api/rules', { config: { roles: SIGNED_IN }, schema: { response: { 200: rulesAnswer } } }, async () => ({ rules: RULE_CATALOGUE }));
+  app.get('/api/rules', { config: { roles: SIGNED_IN }, schema: { response: { 200: rulesAnswer } } }, async () => {
+    const { runLength, ewma, cusum } = resolveRuleSet();
+    return { rules: RULE_CATALOGUE, defaults: { runLength, ewma, cusum } };
+  });
 };

@@ -50,6 +50,8 @@ export class GroupCommitter {
       setImmediate(() => this.flush());
     }
     const { results, messages } = this.monitor.runBatch(taken.map((p) => p.job));
+    // each answer below is final: the request's onSend need not wait for a flush of its own
+    for (const p of taken) if (p.mark) p.mark.flushed = true;
     const answer = () =>
       results.forEach((r, i) => {
         const pending = taken[i] as Pending;
@@ -58,13 +60,11 @@ export class GroupCommitter {
       });
     if (!results.some((r) => r.ok)) {
       // nothing was written: nothing to wait for
-      for (const p of taken) if (p.mark) p.mark.flushed = true;
       answer();
       return;
     }
     this.wal.durable().then(
       () => {
-        for (const p of taken) if (p.mark) p.mark.flushed = true;
         this.monitor.send(messages);
         answer();
       },
@@ -72,11 +72,7 @@ export class GroupCommitter {
       // which answers with the stored check once it is
       (error: unknown) => {
         const failure = new DomainError(503, 'not-flushed', `the check could not be flushed to the disk (${error instanceof Error ? error.message : String(error)}); send it again with the same clientId`);
-        // the answer says so at once: it does not wait for another flush
-        for (const p of taken) {
-          if (p.mark) p.mark.flushed = true;
-          p.reject(failure);
-        }
+        for (const p of taken) p.reject(failure);
       },
     );
   }

@@ -1,5 +1,5 @@
 import type { z } from 'zod';
-import type { ruleDescriptionSchema } from '../../server/health/contract.js';
+import type { rulesAnswer } from '../../server/health/contract.js';
 import type { falseAlarmAnswer, ruleOverrides } from '../../server/products/contract.js';
 import { api, ApiError } from '../shared/api.js';
 import { el } from '../shared/format.js';
@@ -13,21 +13,24 @@ import { el } from '../shared/format.js';
 
 type Overrides = z.output<typeof ruleOverrides>;
 type ChoosableId = keyof NonNullable<Overrides['rules']>;
+type Catalogue = z.output<typeof rulesAnswer>;
 /** A rule a product can choose (check overdue is the sampling clock's, not a product's). */
-type RuleDescription = z.output<typeof ruleDescriptionSchema> & { id: ChoosableId };
+type RuleDescription = Catalogue['rules'][number] & { id: ChoosableId };
 type FalseAlarm = z.output<typeof falseAlarmAnswer>['falseAlarm'];
 
 const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as T;
-/** Defaults as the server keeps them (server/stats/rule-set.ts): EWMA λ 0.2, L 2.962; CUSUM k 0.5, h 5; a run of 9. */
-const DEFAULTS = { runLength: 9, lambda: 0.2, L: 2.962, k: 0.5, h: 5 } as const;
 const NUMBER_IDS = ['lambda', 'L', 'k', 'h'] as const;
 
 let catalogue: RuleDescription[] = [];
+/** The run length and detector design a product gets unless it says otherwise, as the server keeps them. */
+let defaults = { runLength: 9, lambda: 0, L: 0, k: 0, h: 0 };
 
 /** Fetches the rule catalogue and draws one row per rule into the form's rule fieldset. */
 export async function setUpRuleChoice(): Promise<void> {
-  const all = (await api<{ rules: z.output<typeof ruleDescriptionSchema>[] }>('GET', '/api/rules')).rules;
-  catalogue = all.filter((r): r is RuleDescription => r.id !== 'check-overdue');
+  const answer = await api<Catalogue>('GET', '/api/rules');
+  catalogue = answer.rules.filter((r): r is RuleDescription => r.id !== 'check-overdue');
+  const d = answer.defaults;
+  defaults = { runLength: d.runLength, lambda: d.ewma.lambda, L: d.ewma.L, k: d.cusum.k, h: d.cusum.h };
   $('rule-rows').replaceChildren(
     ...catalogue.map((r) =>
       el(
@@ -47,11 +50,11 @@ export function showRuleChoice(o: Overrides | null): void {
     $<HTMLInputElement>(`rc-${r.id}`).checked = o?.rules?.[r.id]?.enabled ?? r.defaultEnabled;
     $<HTMLSelectElement>(`rc-${r.id}-severity`).value = o?.rules?.[r.id]?.severity ?? r.defaultSeverity;
   }
-  $<HTMLSelectElement>('rc-runLength').value = String(o?.runLength ?? DEFAULTS.runLength);
-  $<HTMLInputElement>('rc-lambda').value = String(o?.ewma?.lambda ?? DEFAULTS.lambda);
-  $<HTMLInputElement>('rc-L').value = String(o?.ewma?.L ?? DEFAULTS.L);
-  $<HTMLInputElement>('rc-k').value = String(o?.cusum?.k ?? DEFAULTS.k);
-  $<HTMLInputElement>('rc-h').value = String(o?.cusum?.h ?? DEFAULTS.h);
+  $<HTMLSelectElement>('rc-runLength').value = String(o?.runLength ?? defaults.runLength);
+  $<HTMLInputElement>('rc-lambda').value = String(o?.ewma?.lambda ?? defaults.lambda);
+  $<HTMLInputElement>('rc-L').value = String(o?.ewma?.L ?? defaults.L);
+  $<HTMLInputElement>('rc-k').value = String(o?.cusum?.k ?? defaults.k);
+  $<HTMLInputElement>('rc-h').value = String(o?.cusum?.h ?? defaults.h);
 }
 
 const numberIn = (id: string): number | string => {
@@ -74,9 +77,9 @@ export function ruleChoice(): Overrides {
   const runLength = Number($<HTMLSelectElement>('rc-runLength').value) as 8 | 9;
   const choice: Record<string, unknown> = {};
   if (Object.keys(rules).length > 0) choice.rules = rules;
-  if (runLength !== DEFAULTS.runLength) choice.runLength = runLength;
-  const ewma = { ...(lambda !== DEFAULTS.lambda ? { lambda } : {}), ...(L !== DEFAULTS.L ? { L } : {}) };
-  const cusum = { ...(k !== DEFAULTS.k ? { k } : {}), ...(h !== DEFAULTS.h ? { h } : {}) };
+  if (runLength !== defaults.runLength) choice.runLength = runLength;
+  const ewma = { ...(lambda !== defaults.lambda ? { lambda } : {}), ...(L !== defaults.L ? { L } : {}) };
+  const cusum = { ...(k !== defaults.k ? { k } : {}), ...(h !== defaults.h ? { h } : {}) };
   if (Object.keys(ewma).length > 0) choice.ewma = ewma;
   if (Object.keys(cusum).length > 0) choice.cusum = cusum;
   // a field that does not read as a number goes to the server as typed, which names it
