@@ -1,9 +1,9 @@
 import cookie from '@fastify/cookie';
-import helmet from '@fastify/helmet';
 import rateLimit from '@fastify/rate-limit';
 import Fastify, { LogController, type FastifyInstance, type FastifyServerOptions } from 'fastify';
 import { serializerCompiler, validatorCompiler } from 'fastify-type-provider-zod';
 import { installAccess } from './auth/access.js';
+import { installSecurityHeaders } from './shared/security-headers.js';
 import { authPlugin } from './auth/routes.js';
 import { createAuthRepository } from './auth/repository.js';
 import { createAuthService } from './auth/service.js';
@@ -186,33 +186,24 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
     await wal.durable().catch((err: unknown) => app.log.error({ err }, 'the WAL could not be flushed at close'));
     wal.close();
   });
-  app.addHook('onSend', async (request, reply, payload) => {
+  app.addHook('onSend', (request, reply, payload, done) => {
     // a check's answer waited in the group commit already (its batch's flush): no second flush for it
-    if (request.method === 'GET' || request.method === 'HEAD' || request.flushed) return payload;
-    try {
-      await wal.durable();
-      return payload;
-    } catch (err) {
-      // the change is stored but not known to be on the disk: say so rather than that it worked
-      app.log.error({ err }, 'the WAL could not be flushed');
-      reply.code(503).header('content-type', 'application/json; charset=utf-8');
-      return JSON.stringify({ error: 'not-flushed', message: `the change could not be flushed to the disk (${err instanceof Error ? err.message : String(err)}); try again`, issues: [] });
-    }
+    if (request.method === 'GET' || request.method === 'HEAD' || request.flushed) return done(null, payload);
+    wal.durable().then(
+      () => done(null, payload),
+      (err: unknown) => {
+        // the change is stored but not known to be on the disk: say so rather than that it worked
+        app.log.error({ err }, 'the WAL could not be flushed');
+        reply.code(503).header('content-type', 'application/json; charset=utf-8');
+        done(null, JSON.stringify({ error: 'not-flushed', message: `the change could not be flushed to the disk (${err instanceof Error ? err.message : String(err)}); try again`, issues: [] }));
+      },
+    );
   });
   const hub = new LiveHub({ live: repos.live, now: () => clock.now() });
   listeners.push((events) => hub.publish(events));
   app.decorate('liveHub', hub);
 
-  await app.register(helmet, {
-    contentSecurityPolicy: {
-      useDefaults: true,
-      directives: {
-        'upgrade-insecure-requests': config.secureCookies ? [] : null,
-        'connect-src': ["'self'", 'ws:', 'wss:'],
-      },
-    },
-    hsts: config.secureCookies,
-  });
+  installSecurityHeaders(app, { secureCookies: config.secureCookies });
   await app.register(cookie);
   await app.register(rateLimit, { global: false });
   installAccess(app, auth);
