@@ -35,14 +35,40 @@ export interface AuthServiceOptions {
   audit: AuditRepository;
   sessionIdleMs: number;
   sessionMaxMs: number;
+  /** Milliseconds for how long a token read is believed (tests move it by hand); this process's own clock by default. */
+  cacheTime?: () => number;
 }
 
 // A fixed salt and hash to spend the same scrypt time on an unknown username as on a known one.
 const DUMMY = { hash: 'AAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAA=', salt: 'AAAAAAAAAAAAAAAAAAAAAA==' };
 
+/**
+ * How long a bearer token found active is believed without reading it again. Hashing and reading it
+ * on every request was about 5 % of the server's time under a stream of checks; a revocation through
+ * this server takes effect at once, one through the CLI (another process) within this time.
+ */
+export const TOKEN_RECHECK_MS = 1000;
+/** Tokens remembered at most (a plant has a few dozen); past it the memory starts again. */
+const TOKENS_REMEMBERED = 1000;
+
 export function createAuthService(o: AuthServiceOptions) {
   const { db, clock, repo, audit } = o;
   const throttle = createThrottleRepository(db);
+  // by the bearer as sent; timed by this process's own clock, not the injected one: a cache, not a fact of the plant
+  const knownTokens = new Map<string, { token: MachineToken; readAt: number }>();
+  const cacheTime = o.cacheTime ?? (() => performance.now());
+  const activeToken = (bearer: string): MachineToken | null => {
+    const known = knownTokens.get(bearer);
+    if (known && cacheTime() - known.readAt < TOKEN_RECHECK_MS) return known.token;
+    const token = repo.activeTokenByHash(tokenHash(bearer));
+    if (!token) {
+      knownTokens.delete(bearer);
+      return null;
+    }
+    if (knownTokens.size >= TOKENS_REMEMBERED) knownTokens.clear();
+    knownTokens.set(bearer, { token, readAt: cacheTime() });
+    return token;
+  };
 
   /** One more failure for the pair and for the address; a new lock goes into the audit trail. */
   function countFailure(name: string, address: string, user: User | null, now: number): void {
@@ -141,10 +167,13 @@ export function createAuthService(o: AuthServiceOptions) {
     },
 
     tokenActor(token: string): Actor | null {
-      const found = repo.activeTokenByHash(tokenHash(token));
+      const found = activeToken(token);
       const now = clock.now();
       // the set-up page's "last use", to the minute: a write per minute at most, not one per check
-      if (found && now - (found.lastUsedAt ?? 0) > 60_000) repo.touchToken(found.id, now);
+      if (found && now - (found.lastUsedAt ?? 0) > 60_000) {
+        repo.touchToken(found.id, now);
+        found.lastUsedAt = now;
+      }
       return found ? { kind: 'token', tokenId: found.id, name: found.name, tokenKind: found.kind, lineIds: found.lineIds } : null;
     },
 
@@ -216,6 +245,7 @@ export function createAuthService(o: AuthServiceOptions) {
         const token = repo.token(id);
         if (!token) throw notFound(`token ${id}`);
         if (!repo.revokeToken(id, now)) throw conflict(`token ${id} is already revoked`);
+        knownTokens.clear();
         audit.record({ at: now, actor: by, action: 'token.revoke', entity: 'token', entityId: id, before: { name: token.name } });
         return repo.token(id) as MachineToken;
       }).immediate();
