@@ -7,6 +7,7 @@ import type { HeftContext } from '../context.js';
 import { notFound } from '../errors.js';
 import { checkView } from '../monitor/views.js';
 import { idParam } from '../shared/schemas.js';
+import { plainJson } from '../shared/serializers.js';
 import { lineParams } from '../lines/contract.js';
 import { lineStatusView } from './status.js';
 import { checkAnswer, checkBody, checkListAnswer, checkListQuery, correctionBody, statusAnswer } from './contract.js';
@@ -20,6 +21,7 @@ export const checksPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
     {
       config: { roles: ['operator', 'supervisor', 'quality', 'admin', 'checks-token'] },
       schema: { params: lineParams, body: checkBody, response: { '2xx': checkAnswer } },
+      serializerCompiler: plainJson,
     },
     async (req, reply) => {
       const actor = requireActor(req);
@@ -33,6 +35,7 @@ export const checksPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
     {
       config: { roles: ['operator', 'supervisor', 'quality', 'admin'] },
       schema: { params: z.strictObject({ checkId: idParam }), body: correctionBody, response: { '2xx': checkAnswer } },
+      serializerCompiler: plainJson,
     },
     async (req, reply) => {
       const actor = actorName(requireActor(req));

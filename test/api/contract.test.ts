@@ -1,5 +1,6 @@
 import { describe, expect } from 'vitest';
 import type { z } from 'zod';
+import { checkAnswer } from '../../server/checks/contract.js';
 import { liveMessageSchema } from '../../server/live/messages.js';
 import { heftTest, postCheck, setupLine, weightsWithMean, type TestApp } from '../helpers.js';
 
@@ -7,7 +8,9 @@ import { heftTest, postCheck, setupLine, weightsWithMean, type TestApp } from '.
  * The API contract: every GET route under /api declares the schema of its answer, and a real answer
  * of each, from a line with checks, a fired and acknowledged alert, approved limits, a token and a
  * sign-in lock, matches it field for field (the schemas are strict: an extra field fails).
- * The serializer checks every answer against its schema too; this test does not lean on it.
+ * The serializer checks every answer against its schema too; this test does not lean on it. The
+ * check routes, the hottest, skip that run-time check (server/shared/serializers.ts): their real
+ * answers are checked here instead.
  */
 
 /** GET routes whose answer is not one JSON document: described in API.md instead. */
@@ -113,6 +116,39 @@ describe('the API contract', () => {
       const lengths = arrayLengths(body);
       for (const path of MUST_HOLD[name] ?? []) if (!lengths[path]) failures.push(`${name}: ${path} is empty, so its items went unchecked`);
     }
+    expect(failures).toEqual([]);
+  });
+
+  heftTest('when checks are answered (new, opening or joining an alert, a replay, a correction), then each answer matches the check routes\' schema', async ({ heft: t }) => {
+    const { lineId } = await setupLine(t);
+    const limits = await t.app.inject({ method: 'POST', url: `/api/lines/${lineId}/limits`, headers: { cookie: t.cookies.quality }, payload: { basis: 'standard', centre: 503, sigma: 2 } });
+    expect(limits.statusCode).toBe(201);
+    const answers: { name: string; status: number; body: unknown }[] = [];
+    const keep = (name: string, res: { statusCode: number; json: () => unknown }) => answers.push({ name, status: res.statusCode, body: res.json() });
+    t.clock.advance(3_600_000);
+    const clientId = crypto.randomUUID();
+    keep('in control', await postCheck(t, lineId, weightsWithMean(503), { clientId }));
+    keep('the same clientId again', await postCheck(t, lineId, weightsWithMean(503), { clientId }));
+    t.clock.advance(3_600_000);
+    keep('opens an alert', await postCheck(t, lineId, weightsWithMean(512)));
+    t.clock.advance(3_600_000);
+    const joined = await postCheck(t, lineId, weightsWithMean(512));
+    keep('joins it', joined);
+    const correction = await t.app.inject({
+      method: 'POST',
+      url: `/api/checks/${(joined.json() as { check: { id: number } }).check.id}/revisions`,
+      headers: { cookie: t.cookies.operator },
+      payload: { weights: weightsWithMean(511), clientId: crypto.randomUUID(), reason: 'keyed one pack twice' },
+    });
+    keep('a correction', correction);
+    expect(answers.map((a) => `${a.name} ${a.status}`)).toEqual(['in control 201', 'the same clientId again 200', 'opens an alert 201', 'joins it 201', 'a correction 201']);
+    expect((answers[2] as { body: { alerts: unknown[] } }).body.alerts.length).toBe(1);
+    const failures = answers.flatMap(({ name, body }) => {
+      const parsed = checkAnswer.safeParse(body);
+      const problems = parsed.success ? [] : [`${name}: ${parsed.error.issues.map((i) => `${i.path.join('.')}: ${i.message}`).join('; ')}`];
+      if (checkAnswer.safeParse({ ...(body as object), unnamed: 1 }).success) problems.push(`${name}: takes a field it does not name`);
+      return problems;
+    });
     expect(failures).toEqual([]);
   });
 
