@@ -283,7 +283,12 @@ export class Monitor {
     if (correction) this.supersede(correction, checkId, newCheck.revision, step.nets, actor, now);
     const segmentStartCheckId = base.segmentStartCheckId ?? checkId;
     const point: SegmentPoint = { checkId, takenAt: newCheck.takenAt, mean: newCheck.mean, n: newCheck.n, index: base.segment.count };
-    const points = base.model ? [...base.points.slice(-(SEGMENT_MEMORY - 1)), point] : base.points;
+    let points = base.points;
+    if (base.model) {
+      // one new array, not two: this runs for every check
+      points = base.points.slice(-(SEGMENT_MEMORY - 1));
+      points.push(point);
+    }
     const openAlerts = new Map(base.openAlerts);
     const { signals, touched, opened } = this.alerts.storeSignals(base, openAlerts, points, step.pending, { id: checkId, takenAt: newCheck.takenAt }, now);
     const closed = this.alerts.closeOverdue(openAlerts, 'a check arrived', now, checkId);
