@@ -6,8 +6,8 @@ import type { Db } from './database.js';
  * synchronous=NORMAL (in WAL mode: no fsync at commit, the WAL is synced before each checkpoint),
  * and nothing is answered until an fdatasync of the WAL file, run on libuv's thread pool, that
  * started after the commit has finished. fdatasync flushes the file's data whichever descriptor
- * wrote it, so every commit before it is then on the disk: what `synchronous=FULL` gives, with one
- * flush shared by every request waiting at once and the event loop free while the disk works.
+ * wrote it, so every commit before it is then on the disk: what `synchronous=FULL` gives, with each
+ * flush shared by every request waiting for it and the event loop free while the disk works.
  */
 export interface WalSync {
   /**
@@ -31,42 +31,66 @@ export interface FileFlusher {
 /**
  * fdatasync of one file through a descriptor opened on first use and kept: SQLite keeps the WAL file
  * (truncating it at most) while the writer's connection is open, and the server holds that open.
+ * Flushes may overlap: they share one descriptor, and one that went bad is closed only once no flush
+ * uses it any more (closed earlier, its number could be given to another file that a flush then syncs).
  */
 export function fileFlusher(path: string): FileFlusher {
-  let fd: number | null = null;
-  const opened = (): Promise<number | null> =>
-    fd !== null
-      ? Promise.resolve(fd)
-      : new Promise((resolve, reject) =>
-          open(path, 'r+', (error, got) => {
-            // no WAL file yet: nothing was committed through it, so there is nothing to flush
-            if (error) return error.code === 'ENOENT' ? resolve(null) : reject(error);
-            fd = got;
-            resolve(got);
-          }),
-        );
+  let current: { fd: number; users: number; bad: boolean } | null = null;
+  let opening: Promise<{ fd: number; users: number; bad: boolean } | null> | null = null;
+  const opened = () => {
+    if (current) return Promise.resolve(current);
+    opening ??= new Promise<{ fd: number; users: number; bad: boolean } | null>((resolve, reject) =>
+      open(path, 'r+', (error, fd) => {
+        opening = null;
+        // no WAL file yet: nothing was committed through it, so there is nothing to flush
+        if (error) return error.code === 'ENOENT' ? resolve(null) : reject(error);
+        current = { fd, users: 0, bad: false };
+        resolve(current);
+      }),
+    );
+    return opening;
+  };
+  const release = (handle: { fd: number; users: number; bad: boolean }) => {
+    handle.users -= 1;
+    if (handle.bad && handle.users === 0) close(handle.fd, () => undefined);
+  };
   return {
     async flush() {
       const handle = await opened();
       if (handle === null) return;
-      await new Promise<void>((resolve, reject) =>
-        fdatasync(handle, (error) => {
-          if (!error) return resolve();
-          // a descriptor gone bad is opened again next time
-          if (fd === handle) fd = null;
-          close(handle, () => reject(error));
-        }),
-      );
+      handle.users += 1;
+      try {
+        await new Promise<void>((resolve, reject) => fdatasync(handle.fd, (error) => (error ? reject(error) : resolve())));
+      } catch (error) {
+        // a descriptor gone bad is opened again next time
+        handle.bad = true;
+        if (current === handle) current = null;
+        throw error;
+      } finally {
+        release(handle);
+      }
     },
     close() {
-      if (fd !== null) close(fd, () => undefined);
-      fd = null;
+      if (current) {
+        current.bad = true;
+        if (current.users === 0) close(current.fd, () => undefined);
+      }
+      current = null;
     },
   };
 }
 
+/**
+ * How many flushes may run at once. A commit that finds a flush running starts one of its own rather
+ * than wait for that one to end first: a flush's fdatasync also waits for whatever pages the flushes
+ * before it are still writing, so each covers every commit before its start. Measured at 10
+ * connections, answers waited ~1.3 ms for the disk instead of ~2.1 ms, and ingest rose by a tenth
+ * to a sixth. Three leave one of libuv's four pool threads for everything else (sign-in's scrypt).
+ */
+export const FLUSHES_AT_ONCE = 3;
+
 /** Switches the writer to synchronous=NORMAL and returns the flush every answer waits for. */
-export function createWalSync(db: Db, flusher: FileFlusher | undefined = undefined): WalSync {
+export function createWalSync(db: Db, flusher: FileFlusher | undefined = undefined, flushesAtOnce = FLUSHES_AT_ONCE): WalSync {
   if (db.memory) return { durable: () => Promise.resolve(), flushes: 0, settled: () => Promise.resolve(), close: () => undefined };
   db.pragma('synchronous = NORMAL');
   const disk = flusher ?? fileFlusher(`${db.name}-wal`);
@@ -75,30 +99,33 @@ export function createWalSync(db: Db, flusher: FileFlusher | undefined = undefin
   const changes = db.prepare('SELECT total_changes()').pluck();
   const count = () => changes.get() as number;
   let flushedThrough = count();
-  let running: Promise<void> | null = null;
+  const running = new Set<Promise<void>>();
+  let latest: Promise<void> | null = null;
   let queued: Promise<void> | null = null;
   let flushes = 0;
   const start = (): Promise<void> => {
     flushes += 1;
     const through = count();
-    const p = disk
+    const p: Promise<void> = disk
       .flush()
       .then(() => {
         flushedThrough = Math.max(flushedThrough, through);
       })
       .finally(() => {
-        if (running === p) running = null;
+        running.delete(p);
       });
-    running = p;
+    running.add(p);
+    latest = p;
     return p;
   };
   return {
     durable(): Promise<void> {
       if (count() <= flushedThrough) return Promise.resolve();
-      if (!running) return start();
-      // the running flush may have begun before the caller's commit: wait for the next one, shared
+      if (running.size < flushesAtOnce) return start();
+      // as many flushes run as may, and they began before the caller's commit: wait for the newest to
+      // end, then one more, which every caller waiting meanwhile shares
       if (!queued) {
-        queued = running
+        queued = (latest ?? Promise.resolve())
           .catch(() => undefined)
           .then(() => {
             queued = null;
@@ -111,7 +138,7 @@ export function createWalSync(db: Db, flusher: FileFlusher | undefined = undefin
       return flushes;
     },
     async settled() {
-      while (queued || running) await (queued ?? running)?.catch(() => undefined);
+      while (queued || running.size > 0) await (queued ?? [...running][0])?.catch(() => undefined);
     },
     close: () => disk.close(),
   };

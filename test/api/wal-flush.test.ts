@@ -1,6 +1,7 @@
 import { randomUUID } from 'node:crypto';
+import { readdirSync, readlinkSync, realpathSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
-import { fileFlusher, type FileFlusher } from '../../server/db/wal-sync.js';
+import { FLUSHES_AT_ONCE, fileFlusher, type FileFlusher } from '../../server/db/wal-sync.js';
 import { makeTestApp, postCheck, removeDir, setupLine, weightsWithMean, type TestApp } from '../helpers.js';
 
 /**
@@ -92,23 +93,62 @@ describe('answers wait for the disk', () => {
     });
   });
 
-  it('when checks arrive while a flush runs, then they wait for the next flush, which all of them share', async () => {
+  it('when checks arrive while flushes run, then each commit starts a flush of its own up to FLUSHES_AT_ONCE at a time, and past that the waiting checks share the next one', async () => {
+    expect(FLUSHES_AT_ONCE).toBeGreaterThan(1);
     await withHeldApp(async (t, lineId, held) => {
-      const first = held.nextStart();
-      const one = postCheck(t, lineId, weightsWithMean(503));
-      await first;
       const flushesBefore = t.app.heft.wal.flushes;
+      const first: ReturnType<typeof postCheck>[] = [];
+      for (let i = 0; i < FLUSHES_AT_ONCE; i += 1) {
+        const started = held.nextStart();
+        first.push(postCheck(t, lineId, weightsWithMean(503)));
+        await started; // this check's own flush began (and is held) while the ones before it are still held
+      }
+      expect(t.app.heft.wal.flushes - flushesBefore).toBe(FLUSHES_AT_ONCE);
       const more = Promise.all([1, 2, 3].map(() => postCheck(t, lineId, weightsWithMean(503.2))));
-      // all three committed while the first flush is held (waiting on the rows, not on a clock)
-      await expect.poll(() => (t.db.prepare('SELECT COUNT(*) AS n FROM checks').get() as { n: number }).n).toBe(4);
-      const second = held.nextStart();
-      held.release(); // the first flush ends: it began before the three were committed
-      expect((await one).statusCode).toBe(201);
-      await second;
-      expect(t.app.heft.wal.flushes - flushesBefore).toBe(1);
+      // all three committed while every flush that may run is held (waiting on the rows, not on a clock)
+      await expect.poll(() => (t.db.prepare('SELECT COUNT(*) AS n FROM checks').get() as { n: number }).n).toBe(FLUSHES_AT_ONCE + 3);
+      expect(t.app.heft.wal.flushes - flushesBefore).toBe(FLUSHES_AT_ONCE);
+      const next = held.nextStart();
+      held.release(); // the held flushes end: they began before the three were committed
+      expect((await Promise.all(first)).map((r) => r.statusCode)).toEqual(Array.from({ length: FLUSHES_AT_ONCE }, () => 201));
+      await next;
+      expect(t.app.heft.wal.flushes - flushesBefore).toBe(FLUSHES_AT_ONCE + 1);
       held.release();
       expect((await more).map((r) => r.statusCode)).toEqual([201, 201, 201]);
     });
+  });
+
+  it('when flushes overlap on the real file, then each ends and they share one descriptor, closed with the flusher', async () => {
+    const t = await makeTestApp();
+    try {
+      const { lineId } = await setupLine(t);
+      await t.app.heft.wal.settled();
+      const wal = realpathSync(`${t.file}-wal`);
+      // descriptors this process holds on the WAL file (SQLite's own, the app's flusher, this one)
+      const onWal = () => readdirSync('/proc/self/fd').filter((fd) => {
+        try {
+          return readlinkSync(`/proc/self/fd/${fd}`) === wal;
+        } catch {
+          return false;
+        }
+      }).length;
+      const before = onWal();
+      const flusher = fileFlusher(wal);
+      // eight at once, before any has opened the file: all succeed through one descriptor
+      await Promise.all(Array.from({ length: 8 }, () => flusher.flush()));
+      expect(onWal()).toBe(before + 1);
+      const answers = await Promise.all(Array.from({ length: 12 }, () => postCheck(t, lineId, weightsWithMean(503))));
+      expect(answers.map((r) => r.statusCode)).toEqual(Array.from({ length: 12 }, () => 201));
+      flusher.close();
+      expect(onWal()).toBe(before);
+      // closed: a flush after it opens the file again rather than use a closed descriptor
+      await flusher.flush();
+      expect(onWal()).toBe(before + 1);
+      flusher.close();
+    } finally {
+      await t.close();
+      removeDir(t.dir);
+    }
   });
 
   it('when a product is changed, then that answer waits for a flush too; a read does not', async () => {
