@@ -6,7 +6,7 @@ import { spreadChartLimits, standardisedMean, type ProcessModel } from '../stats
 import { judgePoint, type RawSignal, type SegmentState } from '../stats/judge.js';
 import type { RuleSet } from '../stats/rule-set.js';
 import type { Direction, RuleId, Severity } from '../stats/rules.js';
-import { summarizeSample } from '../stats/sample-summary.js';
+import { summarizeSample, type Inference } from '../stats/sample-summary.js';
 import type { LineRuntime, WindowCheck } from './line-runtime.js';
 
 export interface CheckInput {
@@ -38,6 +38,8 @@ export interface CheckStep {
   windowChecks: WindowCheck[];
   nextSegment: SegmentState;
   pending: PendingSignal[];
+  /** The check's and the window's t, p and interval, worked out once here for the view too. */
+  inference: { own: Inference; window: Inference };
 }
 
 /** How far ahead of the server's clock a check's time may be (a tablet's clock runs fast). */
@@ -102,7 +104,7 @@ export function checkStep(
     weights: nets,
     grossWeights: basis === 'gross' ? input.weights.slice() : null,
   };
-  return { newCheck, nets, windowChecks, nextSegment, pending };
+  return { newCheck, nets, windowChecks, nextSegment, pending, inference: { own, window: windowed } };
 }
 
 function checkTime(takenAt: number, now: number, runStartedAt: number): void {

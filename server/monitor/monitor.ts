@@ -297,7 +297,7 @@ export class Monitor {
       this.repos.monitorState.save({ lineId, runId: base.run.id, limitsKey: base.limitsKey, segmentStartCheckId, segment: step.nextSegment, previous }, now);
     }
     // the row just written, without reading it back
-    const check = checkView({ ...newCheck, id: checkId, supersededBy: null });
+    const check = checkView({ ...newCheck, id: checkId, supersededBy: null }, step.inference);
     const signalViews = checkSignalView(signals);
     const summaries = [...touched.values()].map(alertSummary);
     const messages = this.record(now, [

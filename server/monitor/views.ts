@@ -1,16 +1,17 @@
 import type { AlertRepository, StoredAlert, StoredSignal } from '../alerts/repository.js';
 import type { StoredCheck } from '../checks/repository.js';
 import { toIso } from '../clock.js';
-import { inferFromMoments } from '../stats/sample-summary.js';
+import { inferFromMoments, type Inference } from '../stats/sample-summary.js';
 import { RULE_CATALOGUE } from '../stats/rules.js';
 import { SIGNALS_IN_VIEW, type AlertSummary, type AlertView, type CheckSignalView, type SignalView } from '../alerts/contract.js';
 import type { CheckView } from '../checks/contract.js';
 
 /** The JSON shapes the API and the live feed answer with (API.md). */
 
-export function checkView(c: StoredCheck): CheckView {
-  const own = inferFromMoments(c.n, c.mean, c.sd, c.target);
-  const windowed = inferFromMoments(c.windowN, c.windowMean, c.windowSd, c.target);
+/** A check as the API shows it; `inferred` is the check step's own inference, so a new check's t and p are not worked out twice. */
+export function checkView(c: StoredCheck, inferred?: { own: Inference; window: Inference }): CheckView {
+  const own = inferred?.own ?? inferFromMoments(c.n, c.mean, c.sd, c.target);
+  const windowed = inferred?.window ?? inferFromMoments(c.windowN, c.windowMean, c.windowSd, c.target);
   return {
     id: c.id,
     lineId: c.lineId,
