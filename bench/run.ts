@@ -25,7 +25,10 @@ const INGEST_MS = 4000;
 const LINES = 24;
 const HOUR = 3_600_000;
 const dir = mkdtempSync(join(tmpdir(), 'heft-bench-'));
-let nextPort = 31000 + Math.floor(Math.random() * 10000);
+// below the system's range of ephemeral ports (32768 up here): the load generators' own connections
+// take those, and a server asked to listen on one of them in use failed the run now and then
+const EPHEMERAL_FROM = Number(readFileSync('/proc/sys/net/ipv4/ip_local_port_range', 'utf8').trim().split(/\s+/)[0]) || 32768;
+let nextPort = Math.max(1024, EPHEMERAL_FROM - 12000) + Math.floor(Math.random() * 10000);
 const rows: { figure: string; heft: string; floor: string; ratio: string; note: string }[] = [];
 const say = (s: string) => process.stdout.write(`${s}\n`);
 
