@@ -35,11 +35,17 @@ export interface FileFlusher {
  * uses it any more (closed earlier, its number could be given to another file that a flush then syncs).
  */
 export function fileFlusher(path: string): FileFlusher {
-  let current: { fd: number; users: number; bad: boolean } | null = null;
-  let opening: Promise<{ fd: number; users: number; bad: boolean } | null> | null = null;
+  /** The descriptor, how many flushes use it now, and whether it went bad (then it is closed when they are done). */
+  interface Handle {
+    fd: number;
+    users: number;
+    bad: boolean;
+  }
+  let current: Handle | null = null;
+  let opening: Promise<Handle | null> | null = null;
   const opened = () => {
     if (current) return Promise.resolve(current);
-    opening ??= new Promise<{ fd: number; users: number; bad: boolean } | null>((resolve, reject) =>
+    opening ??= new Promise<Handle | null>((resolve, reject) =>
       open(path, 'r+', (error, fd) => {
         opening = null;
         // no WAL file yet: nothing was committed through it, so there is nothing to flush
@@ -50,7 +56,7 @@ export function fileFlusher(path: string): FileFlusher {
     );
     return opening;
   };
-  const release = (handle: { fd: number; users: number; bad: boolean }) => {
+  const release = (handle: Handle) => {
     handle.users -= 1;
     if (handle.bad && handle.users === 0) close(handle.fd, () => undefined);
   };
