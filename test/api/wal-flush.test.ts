@@ -140,7 +140,8 @@ describe('answers wait for the disk', () => {
       const answers = await Promise.all(Array.from({ length: 12 }, () => postCheck(t, lineId, weightsWithMean(503))));
       expect(answers.map((r) => r.statusCode)).toEqual(Array.from({ length: 12 }, () => 201));
       flusher.close();
-      expect(onWal()).toBe(before);
+      // fs.close runs on the thread pool: wait for the descriptor to go
+      await expect.poll(onWal).toBe(before);
       // closed: a flush after it opens the file again rather than use a closed descriptor
       await flusher.flush();
       expect(onWal()).toBe(before + 1);
