@@ -197,6 +197,17 @@ function httpPost(port: number, path: string, body: unknown, token: string): Pro
 
 // ------------------------------------------------------------------ the figures
 
+/** ROUNDS of the same load on the floor and on Heft, one after the other. */
+async function ingestRounds(floorPort: number, heftPort: number, token: string, conns: number): Promise<{ f: Load[]; h: Load[] }> {
+  const f: Load[] = [];
+  const h: Load[] = [];
+  for (let r = 0; r < ROUNDS; r += 1) {
+    f.push(await load(floorPort, token, conns));
+    h.push(await load(heftPort, token, conns));
+  }
+  return { f, h };
+}
+
 async function ingest(small: string, token: string): Promise<void> {
   say('ingest: floor (bare Fastify + zod + one FULL insert per request) and Heft, 10 and 50 connections');
   const floorFile = join(dir, 'floor.db');
@@ -204,12 +215,7 @@ async function ingest(small: string, token: string): Promise<void> {
   const floor = await startFloor('bench/floor.ts', [floorFile, String(floorPort)]);
   const heft = await startHeft(small);
   for (const conns of [10, 50]) {
-    const f: Load[] = [];
-    const h: Load[] = [];
-    for (let r = 0; r < ROUNDS; r += 1) {
-      f.push(await load(floorPort, token, conns));
-      h.push(await load(heft.port, token, conns));
-    }
+    const { f, h } = await ingestRounds(floorPort, heft.port, token, conns);
     addRow(`ingest checks/s, ${conns} connections`, h.map((x) => x.rps), f.map((x) => x.rps), '/s', 0, `errors ${h.reduce((a, x) => a + x.errors, 0)}; goal ${conns === 50 ? '≥ 1.5×' : '≥ 0.8×'} floor`);
     addRow(`ingest p50 latency, ${conns} connections`, h.map((x) => x.p50), f.map((x) => x.p50), 'ms', 2, '', true);
     addRow(`ingest p99 latency, ${conns} connections`, h.map((x) => x.p99), f.map((x) => x.p99), 'ms', 2, '', true);
@@ -221,12 +227,7 @@ async function ingest(small: string, token: string): Promise<void> {
   const wholeFloorPort = nextPort++;
   const wholeFloor = await startFloor('bench/floor.ts', [join(dir, 'floor-whole.db'), String(wholeFloorPort)], 'whole');
   const wholeHeft = await startHeft(small, 'whole');
-  const f: Load[] = [];
-  const h: Load[] = [];
-  for (let r = 0; r < ROUNDS; r += 1) {
-    f.push(await load(wholeFloorPort, token, 50));
-    h.push(await load(wholeHeft.port, token, 50));
-  }
+  const { f, h } = await ingestRounds(wholeFloorPort, wholeHeft.port, token, 50);
   addRow('ingest checks/s, 50 connections, each server wholly on core 0', h.map((x) => x.rps), f.map((x) => x.rps), '/s', 0, `errors ${h.reduce((a, x) => a + x.errors, 0)}; helper threads share the event loop's core`);
   await stop(wholeHeft.child);
   await stop(wholeFloor);

@@ -96,7 +96,7 @@ export function fileFlusher(path: string): FileFlusher {
 export const FLUSHES_AT_ONCE = 3;
 
 /** Switches the writer to synchronous=NORMAL and returns the flush every answer waits for. */
-export function createWalSync(db: Db, flusher: FileFlusher | undefined = undefined, flushesAtOnce = FLUSHES_AT_ONCE): WalSync {
+export function createWalSync(db: Db, flusher: FileFlusher | undefined = undefined): WalSync {
   if (db.memory) return { durable: () => Promise.resolve(), flushes: 0, settled: () => Promise.resolve(), close: () => undefined };
   db.pragma('synchronous = NORMAL');
   const disk = flusher ?? fileFlusher(`${db.name}-wal`);
@@ -105,8 +105,8 @@ export function createWalSync(db: Db, flusher: FileFlusher | undefined = undefin
   const changes = db.prepare('SELECT total_changes()').pluck();
   const count = () => changes.get() as number;
   let flushedThrough = count();
+  // in the order they began
   const running = new Set<Promise<void>>();
-  let latest: Promise<void> | null = null;
   let queued: Promise<void> | null = null;
   let flushes = 0;
   const start = (): Promise<void> => {
@@ -121,17 +121,17 @@ export function createWalSync(db: Db, flusher: FileFlusher | undefined = undefin
         running.delete(p);
       });
     running.add(p);
-    latest = p;
     return p;
   };
   return {
     durable(): Promise<void> {
       if (count() <= flushedThrough) return Promise.resolve();
-      if (running.size < flushesAtOnce) return start();
+      if (running.size < FLUSHES_AT_ONCE) return start();
       // as many flushes run as may, and they began before the caller's commit: wait for the newest to
       // end, then one more, which every caller waiting meanwhile shares
       if (!queued) {
-        queued = (latest ?? Promise.resolve())
+        const newest = [...running].at(-1) as Promise<void>;
+        queued = newest
           .catch(() => undefined)
           .then(() => {
             queued = null;
