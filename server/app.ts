@@ -46,6 +46,7 @@ import { createEscalationService } from './escalations/service.js';
 import type { LiveEvent } from './live/messages.js';
 import { Monitor } from './monitor/monitor.js';
 import { createMonitorStateRepository } from './monitor/state-repository.js';
+import { checkMessageParts } from './monitor/views.js';
 import { productsPlugin } from './products/routes.js';
 import { exportsPlugin } from './exports/routes.js';
 import { reviewPlugin } from './review/routes.js';
@@ -105,16 +106,18 @@ export async function buildApp(options: AppOptions): Promise<FastifyInstance> {
 
   const listeners: ((events: LiveEvent[]) => void)[] = [];
   if (options.onLive) listeners.push(options.onLive);
+  const checks = createCheckRepository(db);
+  const alerts = createAlertRepository(db);
   const repos = {
     lines: createLineRepository(db),
     stops: createLineStopRepository(db),
     products: createProductRepository(db),
-    checks: createCheckRepository(db),
-    alerts: createAlertRepository(db),
+    checks,
+    alerts,
     limits: createLimitsRepository(db),
     monitorState: createMonitorStateRepository(db),
     audit: createAuditRepository(db),
-    live: createLiveRepository(db),
+    live: createLiveRepository(db, checkMessageParts(checks, alerts)),
     auth: createAuthRepository(db),
     escalations: createEscalationRepository(db),
   };

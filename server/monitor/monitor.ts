@@ -184,7 +184,8 @@ export class Monitor {
   private record(at: number, bodies: LiveEventBody[]): LiveEvent[] {
     return bodies.map((body) => {
       const { type, lineId, ...rest } = body;
-      return this.repos.live.append({ type, at, lineId, body: rest }) as unknown as LiveEvent;
+      const checkId = body.type === 'check' ? body.check.id : undefined;
+      return this.repos.live.append({ type, at, lineId, body: rest, checkId }) as unknown as LiveEvent;
     });
   }
 

@@ -1,5 +1,6 @@
 import type { AlertRepository, StoredAlert, StoredSignal } from '../alerts/repository.js';
-import type { StoredCheck } from '../checks/repository.js';
+import type { CheckRepository, StoredCheck } from '../checks/repository.js';
+import type { CheckParts } from '../live/repository.js';
 import { toIso } from '../clock.js';
 import { inferFromMoments, type Inference } from '../stats/sample-summary.js';
 import { RULE_CATALOGUE } from '../stats/rules.js';
@@ -137,4 +138,12 @@ export function alertView(a: StoredAlert, signals: readonly StoredSignal[], told
 /** An alert's full view with its latest signals read from storage. */
 export function alertViewFrom(alerts: AlertRepository, a: StoredAlert): AlertView {
   return alertView(a, alerts.signalPage(a.id, null, SIGNALS_IN_VIEW), alerts.told(a.id));
+}
+
+/** A check's live message parts as they were sent, read back for a replay: the check as entered (not yet corrected) and its own signals. */
+export function checkMessageParts(checks: CheckRepository, alerts: AlertRepository): CheckParts {
+  return (checkId) => {
+    const check = checks.get(checkId);
+    return check ? { check: checkView({ ...check, supersededBy: null }), signals: checkSignalView(alerts.signalsOfCheck(checkId)) } : null;
+  };
 }

@@ -2,7 +2,6 @@ import { EventEmitter } from 'node:events';
 import { describe, expect, it } from 'vitest';
 import WebSocket from 'ws';
 import { LiveHub } from '../../server/live/hub.js';
-import { createLiveRepository } from '../../server/live/repository.js';
 import { closeAfterEach, makeTestApp, postCheck, setupLine, weightsWithMean, type TestApp } from '../helpers.js';
 
 let t: TestApp | null = null;
@@ -79,15 +78,59 @@ describe('the live feed', () => {
     c.ws.close();
   });
 
+  it('when a client is replayed the checks it missed, then each check message is the one sent live, the corrected one as entered', async () => {
+    t = await makeTestApp();
+    const { lineId } = await setupLine(t);
+    const limits = await t.app.inject({ method: 'POST', url: `/api/lines/${lineId}/limits`, headers: { cookie: t.cookies.quality }, payload: { basis: 'standard', centre: 503, sigma: 2 } });
+    expect(limits.statusCode).toBe(201);
+    const port = await listen(t);
+    const following = connect(port, t.cookies.supervisor);
+    await following.opened;
+    await when(following.ws, 'message', () => following.messages.some((m) => m.type === 'hello'));
+    // in control, then far above the limits (opens an alert), then a second that joins it and is corrected
+    for (const mean of [503, 503.4, 502.8, 512, 512]) {
+      t.clock.advance(3_600_000);
+      expect((await postCheck(t, lineId, weightsWithMean(mean))).statusCode).toBe(201);
+    }
+    const lastPosted = (t.db.prepare('SELECT MAX(id) AS id FROM checks').get() as { id: number }).id;
+    const corrected = await t.app.inject({
+      method: 'POST',
+      url: `/api/checks/${lastPosted}/revisions`,
+      headers: { cookie: t.cookies.operator },
+      payload: { weights: weightsWithMean(511), clientId: crypto.randomUUID(), reason: 'keyed one pack twice' },
+    });
+    expect(corrected.statusCode).toBe(201);
+    await when(following.ws, 'message', () => following.messages.filter((m) => m.type === 'check').length === 6);
+
+    const replayed = connect(port, t.cookies.supervisor, 0);
+    await replayed.opened;
+    await when(replayed.ws, 'message', () => replayed.messages.some((m) => m.type === 'resumed'));
+    const sentLive = following.messages.filter((m) => m.type === 'check') as unknown as { seq: number; check: { id: number; supersededBy: number | null; revisesCheckId: number | null }; signals: unknown[] }[];
+    const bySeq = new Map(replayed.messages.map((m) => [m.seq, m]));
+    for (const m of sentLive) expect(bySeq.get(m.seq)).toEqual(m);
+    // what makes the comparison worth having: signals, a superseded check as it was entered, its revision
+    expect(sentLive.filter((m) => m.signals.length > 0).length).toBeGreaterThanOrEqual(2);
+    const superseded = sentLive.find((m) => m.check.id === lastPosted);
+    expect(superseded?.check.supersededBy).toBeNull();
+    expect((t.db.prepare('SELECT superseded_by FROM checks WHERE id = ?').get(lastPosted) as { superseded_by: number | null }).superseded_by).not.toBeNull();
+    expect(sentLive.at(-1)?.check.revisesCheckId).toBe(lastPosted);
+    // stored by reference: the envelope and the check's id, not the check again
+    const stored = t.db.prepare('SELECT check_id AS checkId, length(payload) AS bytes FROM live_messages WHERE type = ? ORDER BY seq').all('check') as { checkId: number | null; bytes: number }[];
+    expect(stored.map((r) => r.checkId)).toEqual(sentLive.map((m) => m.check.id));
+    for (const r of stored) expect(r.bytes).toBeLessThan(100);
+    following.ws.close();
+    replayed.ws.close();
+  });
+
   it('when the server restarts, then seq keeps increasing', async () => {
     t = await makeTestApp();
     const { lineId } = await setupLine(t);
     await postCheck(t, lineId, weightsWithMean(503));
-    const before = createLiveRepository(t.db).latestSeq();
+    const before = t.app.heft.repos.live.latestSeq();
     t = await t.restart();
     t.clock.advance(60_000);
     await postCheck(t, lineId, weightsWithMean(503));
-    expect(createLiveRepository(t.db).latestSeq()).toBeGreaterThan(before);
+    expect(t.app.heft.repos.live.latestSeq()).toBeGreaterThan(before);
   });
 
   it('when nobody is signed in, then the upgrade is refused with 401', async () => {
@@ -158,7 +201,7 @@ class FakeSocket extends EventEmitter {
 describe('the hub’s limits', () => {
   it('when a client’s send buffer passes the bound, then it is dropped instead of growing the server’s memory', async () => {
     t = await makeTestApp();
-    const live = createLiveRepository(t.db);
+    const live = t.app.heft.repos.live;
     const hub = new LiveHub({ live, maxBufferedBytes: 10_000, resumeGraceMs: 0 });
     const slow = new FakeSocket();
     const fast = new FakeSocket();
@@ -177,7 +220,7 @@ describe('the hub’s limits', () => {
 
   it('when a client stops answering pings, then the heartbeat drops it', async () => {
     t = await makeTestApp();
-    const hub = new LiveHub({ live: createLiveRepository(t.db), heartbeatMs: 20, resumeGraceMs: 0 });
+    const hub = new LiveHub({ live: t.app.heft.repos.live, heartbeatMs: 20, resumeGraceMs: 0 });
     const silent = new FakeSocket();
     const lively = new FakeSocket();
     lively.ping = () => {
@@ -194,7 +237,7 @@ describe('the hub’s limits', () => {
 
   it('when a client resumes from beyond what storage holds, then it is told to resync', async () => {
     t = await makeTestApp();
-    const hub = new LiveHub({ live: createLiveRepository(t.db), resumeGraceMs: 0 });
+    const hub = new LiveHub({ live: t.app.heft.repos.live, resumeGraceMs: 0 });
     const s = new FakeSocket();
     hub.attach(s as unknown as WebSocket, 999_999);
     expect(s.sent.map((x) => JSON.parse(String(x)).type)).toEqual(['hello', 'resync']);
