@@ -59,7 +59,7 @@ export const checksPlugin: FastifyPluginAsync<{ ctx: HeftContext }> = async (fas
         limit: req.query.limit,
         includeSuperseded: req.query.revisions === 'all',
       });
-      return { checks: checks.map((c) => checkView(c)) };
+      return { checks: checks.map((c) => checkView(c, c)) };
     },
   );
 

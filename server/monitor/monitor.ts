@@ -298,7 +298,7 @@ export class Monitor {
       this.repos.monitorState.save({ lineId, runId: base.run.id, limitsKey: base.limitsKey, segmentStartCheckId, segment: step.nextSegment, previous }, now);
     }
     // the row just written, without reading it back
-    const check = checkView({ ...newCheck, id: checkId, supersededBy: null }, step.inference);
+    const check = checkView(newCheck, { id: checkId, supersededBy: null }, step.inference);
     const signalViews = checkSignalView(signals);
     const summaries = [...touched.values()].map(alertSummary);
     const messages = this.record(now, [
@@ -329,7 +329,7 @@ export class Monitor {
     const signals = this.repos.alerts.signalsOfCheck(existing.id);
     const alertIds = [...new Set(signals.map((s) => s.alertId))];
     const alerts = alertIds.map((id) => this.repos.alerts.get(id) as StoredAlert);
-    return { created: false, check: checkView(existing), signals: checkSignalView(signals), alerts: alerts.map(alertSummary) };
+    return { created: false, check: checkView(existing, existing), signals: checkSignalView(signals), alerts: alerts.map(alertSummary) };
   }
 
   // ---------------------------------------------------------------- changeover and limits
