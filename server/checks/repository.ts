@@ -124,13 +124,13 @@ export interface CheckQuery {
 }
 
 export function createCheckRepository(db: Db) {
+  // bound by position, not by name (a named binding looks each of the 25 up on the object: about 3 % of
+  // a check's engine time); the column list here and the argument list in insert() keep the same order
   const insertCheck = db.prepare(
     `INSERT INTO checks (line_id, run_id, product_id, client_id, taken_at, recorded_at, basis, source, entered_by, note, revision,
        revises_check_id, revision_reason, n, mean, sd, range, target, below_t1, below_t2, window_checks, window_n,
        window_mean, window_sd, limits_version_id)
-     VALUES (@lineId, @runId, @productId, @clientId, @takenAt, @recordedAt, @basis, @source, @enteredBy, @note, @revision,
-       @revisesCheckId, @revisionReason, @n, @mean, @sd, @range, @target, @belowT1, @belowT2, @windowChecks, @windowN,
-       @windowMean, @windowSd, @limitsVersionId)`,
+     VALUES (${Array.from({ length: 25 }, () => '?').join(', ')})`,
   );
   // one statement per check's packs, prepared once for each pack count seen
   const packInserts = new Map<number, Database.Statement>();
@@ -166,7 +166,12 @@ export function createCheckRepository(db: Db) {
 
   return {
     insert(check: NewCheck): number {
-      const id = Number(insertCheck.run(check).lastInsertRowid);
+      const c = check;
+      const id = Number(
+        insertCheck.run(c.lineId, c.runId, c.productId, c.clientId, c.takenAt, c.recordedAt, c.basis, c.source, c.enteredBy, c.note, c.revision,
+          c.revisesCheckId, c.revisionReason, c.n, c.mean, c.sd, c.range, c.target, c.belowT1, c.belowT2, c.windowChecks, c.windowN,
+          c.windowMean, c.windowSd, c.limitsVersionId).lastInsertRowid,
+      );
       // a plain loop: flatMap measured slow on this path
       const values: (number | null)[] = [];
       for (let i = 0; i < check.weights.length; i += 1) values.push(id, i, check.weights[i] as number, check.grossWeights?.[i] ?? null);
