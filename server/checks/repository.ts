@@ -165,8 +165,7 @@ export function createCheckRepository(db: Db) {
   const count = db.prepare('SELECT COUNT(*) AS n FROM checks');
 
   return {
-    insert(check: NewCheck): number {
-      const c = check;
+    insert(c: NewCheck): number {
       const id = Number(
         insertCheck.run(c.lineId, c.runId, c.productId, c.clientId, c.takenAt, c.recordedAt, c.basis, c.source, c.enteredBy, c.note, c.revision,
           c.revisesCheckId, c.revisionReason, c.n, c.mean, c.sd, c.range, c.target, c.belowT1, c.belowT2, c.windowChecks, c.windowN,
@@ -174,8 +173,8 @@ export function createCheckRepository(db: Db) {
       );
       // a plain loop: flatMap measured slow on this path
       const values: (number | null)[] = [];
-      for (let i = 0; i < check.weights.length; i += 1) values.push(id, i, check.weights[i] as number, check.grossWeights?.[i] ?? null);
-      insertPacks(check.weights.length).run(values);
+      for (let i = 0; i < c.weights.length; i += 1) values.push(id, i, c.weights[i] as number, c.grossWeights?.[i] ?? null);
+      insertPacks(c.weights.length).run(values);
       return id;
     },
     markSuperseded(id: number, by: number): boolean {

@@ -45,10 +45,10 @@ export function createLiveRepository(db: Db, checkParts: CheckParts) {
           messages.push({ ...stored, seq: r.seq });
           continue;
         }
-        // checks are never deleted, so the parts are there; were one missing, its message is left out
-        // rather than sent without its check (the client's seq still moves past it)
+        // checks are never deleted (no code path does), so a missing one is damage: said, not skipped
         const parts = checkParts(r.check_id);
-        if (parts) messages.push({ ...stored, ...parts, seq: r.seq });
+        if (!parts) throw new Error(`live message ${r.seq} is about check ${r.check_id}, which is not stored`);
+        messages.push({ ...stored, ...parts, seq: r.seq });
       }
       return messages;
     },

@@ -122,6 +122,12 @@ describe('the live feed', () => {
     replayed.ws.close();
   });
 
+  it('when a stored check message names a check that is not stored, then reading it back says so instead of skipping it', async () => {
+    t = await makeTestApp();
+    const seq = Number(t.db.prepare("INSERT INTO live_messages (at, type, line_id, payload, check_id) VALUES (1, 'check', 1, '{}', 999999)").run().lastInsertRowid);
+    expect(() => t?.app.heft.repos.live.after(seq - 1, 10)).toThrow(`live message ${seq} is about check 999999, which is not stored`);
+  });
+
   it('when the server restarts, then seq keeps increasing', async () => {
     t = await makeTestApp();
     const { lineId } = await setupLine(t);
